@@ -1,0 +1,6 @@
+"""Allow ``python -m showops``."""
+
+from showops.cli import main
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

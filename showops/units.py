@@ -1,0 +1,130 @@
+"""Quantities in, SI floats out.
+
+A rig file may give any number as a plain number (already SI) or as a string with a
+unit ("1100 mm", "4 ft 6 in", "250 lb", "55 lbf"). :func:`to_si` turns either into a
+float in the SI unit of the expected dimension. pint is imported only when a string
+actually needs parsing, so plain-number files never pay for it.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from functools import lru_cache
+from typing import Literal
+
+from showops.errors import UnitError
+
+Dimension = Literal["length", "mass", "force", "moment", "dimensionless", "time", "speed"]
+
+#: Standard acceleration of gravity, m/s², as defined by the 3rd General Conference
+#: on Weights and Measures (CGPM, 1901); also CODATA's exact value.
+STANDARD_GRAVITY = 9.80665
+
+_SI_UNIT = {
+    "length": "meter",
+    "mass": "kilogram",
+    "force": "newton",
+    "moment": "newton * meter",
+    "dimensionless": "dimensionless",
+    "time": "second",
+    "speed": "meter / second",
+}
+
+_IMPERIAL_UNIT = {
+    "length": ("ft", 1 / 0.3048),
+    "mass": ("lb", 1 / 0.45359237),
+    "force": ("lbf", 1 / (0.45359237 * STANDARD_GRAVITY)),
+    "moment": ("lbf·ft", 1 / (0.45359237 * STANDARD_GRAVITY * 0.3048)),
+}
+_SI_SYMBOL = {"length": "m", "mass": "kg", "force": "N", "moment": "N·m"}
+
+
+@lru_cache(maxsize=1)
+def _registry():
+    import pint  # imported here: slow to load, and only needed for strings with units
+
+    return pint.UnitRegistry()
+
+
+# "4 ft 6 in" style compound lengths: pint reads "4 ft 6 in" as a product, so split.
+_COMPOUND = re.compile(r"^\s*(?:[-+]?\d[\d.]*(?:e[-+]?\d+)?\s*[a-zA-Z\"']+\s*){2,}$")
+_TERM = re.compile(r"([-+]?\d[\d.]*(?:e[-+]?\d+)?)\s*([a-zA-Z\"']+)")
+
+
+def to_si(value: object, dimension: Dimension, *, what: str = "value") -> float:
+    """Return ``value`` as a float in the SI unit of ``dimension``.
+
+    :param value: a number (taken as SI already) or a string with a unit.
+    :param dimension: the dimension expected, e.g. ``"length"``.
+    :param what: the name used in error messages (the field's key).
+    :returns: the value in SI (m, kg, N, N·m, s, m/s).
+    :raises UnitError: for booleans, non-numbers, unknown units, a wrong dimension,
+        NaN or infinity.
+    """
+    if isinstance(value, bool):
+        raise UnitError(f"{what}: expected a number or a {dimension} with a unit, got {value!r}")
+    if isinstance(value, (int, float)):
+        result = float(value)
+    elif isinstance(value, str):
+        result = _parse(value, dimension, what)
+    else:
+        raise UnitError(f"{what}: expected a number or a {dimension} with a unit, got {value!r}")
+    if not math.isfinite(result):
+        raise UnitError(f"{what}: expected a finite number, got {value!r}")
+    return result
+
+
+def _parse(text: str, dimension: Dimension, what: str) -> float:
+    text = text.strip().replace("·", "*")
+    if not text:
+        raise UnitError(f"{what}: expected a {dimension} with a unit, got an empty string")
+    if _COMPOUND.match(text):
+        return sum(_parse(f"{n} {u}", dimension, what) for n, u in _TERM.findall(text))
+    import pint
+
+    ureg = _registry()
+    try:
+        quantity = ureg.Quantity(text)
+    except Exception as exc:  # pint's parser raises many unrelated types on bad text
+        raise UnitError(f"{what}: cannot read {text!r} as a {dimension} ({_short(exc)})") from None
+    if not hasattr(quantity, "to"):
+        # A bare number given as a string ("1.2"): take it as SI, like a TOML number.
+        return float(quantity)
+    if quantity.dimensionless and dimension != "dimensionless":
+        return float(quantity.magnitude)
+    try:
+        return float(quantity.to(_SI_UNIT[dimension]).magnitude)
+    except pint.errors.DimensionalityError:
+        raise UnitError(
+            f"{what}: {text!r} is not a {dimension} (give it in {_example(dimension)})"
+        ) from None
+
+
+def _short(exc: Exception) -> str:
+    return str(exc).splitlines()[0][:80] if str(exc) else type(exc).__name__
+
+
+def _example(dimension: Dimension) -> str:
+    return {
+        "length": "m, mm, ft or in",
+        "mass": "kg or lb",
+        "force": "N, kN or lbf",
+        "moment": "N*m or lbf*ft",
+        "time": "s or min",
+        "speed": "m/s",
+        "dimensionless": "a plain number",
+    }[dimension]
+
+
+def format_quantity(value_si: float, dimension: Dimension, *, imperial: bool = False,
+                    digits: int = 1) -> str:
+    """Format an SI value for people, optionally in imperial units.
+
+    :returns: e.g. ``"784.5 N"`` or ``"176.4 lbf"``.
+    """
+    if imperial and dimension in _IMPERIAL_UNIT:
+        symbol, factor = _IMPERIAL_UNIT[dimension]
+        return f"{value_si * factor:,.{digits}f} {symbol}"
+    symbol = _SI_SYMBOL.get(dimension, "")
+    return f"{value_si:,.{digits}f} {symbol}".rstrip()
