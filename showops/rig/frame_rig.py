@@ -17,6 +17,7 @@ from __future__ import annotations
 import hashlib
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any, Literal, Sequence
 
 import numpy as np
@@ -124,7 +125,7 @@ class FrameRig:
     source: str = "<rig>"
     kind: str = "frame"
 
-    @property
+    @cached_property
     def version(self) -> str:
         """The SHA-256 of the rig file's text."""
         return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
