@@ -117,7 +117,8 @@ def read_linkage(top: TableReader, text: str) -> LinkageRig:
         advisor = Advisor(plates_kg=at.list_of_quantities("plates", "mass"),
                           handle_min_x_m=at.quantity("handle_min_x", "length", None, negative=True),
                           handle_max_x_m=at.quantity("handle_max_x", "length", None, negative=True),
-                          max_operators=at.integer("max_operators", None))
+                          max_operators=at.integer("max_operators", None),
+                          handle_step_m=at.quantity("handle_step", "length", None, positive=True))
         if (advisor.handle_min_x_m is not None and advisor.handle_max_x_m is not None
                 and advisor.handle_min_x_m > advisor.handle_max_x_m):
             raise at.error("handle_min_x", "must be further back (more negative) than handle_max_x")

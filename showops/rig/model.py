@@ -84,6 +84,8 @@ class Advisor:
     handle_min_x_m: float | None = None
     handle_max_x_m: float | None = None
     max_operators: int | None = None
+    #: spacing of the handle positions the advisor tries (the holes a handle bolts to)
+    handle_step_m: float | None = None
 
 
 @dataclass(frozen=True)
