@@ -305,6 +305,15 @@ def solve_frame_batch(model: FrameModel, coords_m: np.ndarray,
         message names a node and freedom that moves), a loose node, a zero-length
         member, a point load beyond its member's end, or a moment at a hinge.
     """
+    with np.errstate(over="raise", invalid="raise", divide="raise"):
+        try:
+            return _solve_batch(model, coords_m, load_scale)
+        except (FloatingPointError, np.linalg.LinAlgError):
+            raise FrameModelError("the frame's numbers are out of range (a section, length or load far "
+                                  "beyond a stage machine): check the sections and units") from None
+
+
+def _solve_batch(model: FrameModel, coords_m, load_scale) -> FrameSolution:
     plan = _plan(model)
     coords = np.asarray(coords_m, dtype=float)
     batch = coords.shape[0]
