@@ -24,6 +24,7 @@ it sags (the member's ``+y`` face in compression, as for a beam drawn left to ri
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Sequence
 
 import numpy as np
@@ -203,6 +204,7 @@ class _Plan:
     scatter: np.ndarray     # (members * 36,) flat index into the (ndof * ndof) matrix
 
 
+@lru_cache(maxsize=64)
 def _plan(model: FrameModel) -> _Plan:
     n = len(model.node_names)
     m = len(model.members)
