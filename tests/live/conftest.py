@@ -43,6 +43,18 @@ def make_events():
     return sample_events
 
 
+@pytest.fixture(scope="session")
+def lift():
+    """The invented lift procedure, crew and actors of ``tests/live/lift.py``."""
+    import importlib.util
+    from pathlib import Path
+
+    spec = importlib.util.spec_from_file_location("live_lift_fixture", Path(__file__).with_name("lift.py"))
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
 @pytest.fixture
 def filled(db):
     append_events(db, sample_events(12))
