@@ -338,6 +338,7 @@ class _Context:
     solver: RigSolver
     rehearsals: list[Rehearsal] | None
     advisor: Callable[[Any, Sequence[float]], str | None] = advisor_text
+    checker: Callable[..., tuple[list[str] | None, str | None]] = check_cue_procedure
 
 
 def _rider_reasons(cue: CueInput, riders: Sequence[Rider], starts_at: datetime, ctx: _Context):
@@ -387,7 +388,7 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
                "crew": {role: [p.name for r2, p in cue.crew if r2 == role] for role, _ in cue.crew},
                "performance": {"id": perf.performance_id, "starts_at": perf.starts_at.isoformat()},
                "cue": {"number": cue.number, "name": cue.name}}
-    findings, rule_set = check_cue_procedure(procedure, result, context) if result is not None else (None, None)
+    findings, rule_set = ctx.checker(procedure, result, context) if result is not None else (None, None)
     reasons += procedure_reasons(procedure, findings)
     staffing = unstaffed_roles(procedure, cue.crew, cue.riders, cue.rig_model)
     staffing += role_not_held(cue.crew)
@@ -456,14 +457,17 @@ def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _C
 
 def night_plan(perf: PerformanceInput, *, rehearsals: Iterable[Rehearsal] | None = None,
                solver: RigSolver | None = None,
-               advisor: Callable[[Any, Sequence[float]], str | None] = advisor_text) -> NightPlan:
+               advisor: Callable[[Any, Sequence[float]], str | None] = advisor_text,
+               checker: Callable[..., tuple[list[str] | None, str | None]] = check_cue_procedure) -> NightPlan:
     """Return the performance's :class:`NightPlan` with every cue's verdict.
 
     :param rehearsals: rehearsal records (rig care's); None when none are kept, which
         turns the rehearsal rule off rather than blocking every cue.
     :param solver: a shared :class:`RigSolver` to reuse solves across a season.
+    :param advisor: ``advisor(rig_model, rider_masses_kg) -> text or None`` (the balance advisor).
+    :param checker: ``checker(procedure, rig_result, context) -> (finding lines or None, rule-set version)``.
     """
-    ctx = _Context(solver or RigSolver(), list(rehearsals) if rehearsals is not None else None, advisor)
+    ctx = _Context(solver or RigSolver(), list(rehearsals) if rehearsals is not None else None, advisor, checker)
     cues = tuple(cue_night(c, perf, ctx) for c in perf.cues)
     return NightPlan(performance_id=perf.performance_id, production=perf.production, company=perf.company,
                      venue=perf.venue, starts_at=perf.starts_at, stage_manager=perf.stage_manager,
