@@ -12,6 +12,7 @@ can clear a block, ``Reason.fix`` says what, and :attr:`CueNight.fixes` gathers 
 
 from __future__ import annotations
 
+import functools
 import importlib
 from dataclasses import dataclass, field, replace
 from datetime import date, datetime
@@ -112,6 +113,7 @@ class PerformanceInput:
 # --------------------------------------------------------------------------- the procedure, behind one function
 
 
+@functools.lru_cache(maxsize=1)
 def procedure_api() -> tuple[Callable | None, str | None]:
     """Return ``(check_procedure, RULE_SET_VERSION)`` when the checker is installed, else ``(None, None)``."""
     try:
@@ -136,13 +138,18 @@ def check_cue_procedure(procedure, rig_result, context: Mapping[str, Any] | None
     return [f.format(source) for f in findings], version
 
 
-def advisor_text(rig_model, rider_masses_kg: Sequence[float]) -> str | None:
-    """Return the balance advisor's advice (``showops.rig.advisor``) or None where it is not installed."""
+@functools.lru_cache(maxsize=1)
+def _advise_balance() -> Callable | None:
     try:
         module = importlib.import_module("showops.rig.advisor")
     except ImportError:
         return None
-    advise = getattr(module, "advise_balance", None)
+    return getattr(module, "advise_balance", None)
+
+
+def advisor_text(rig_model, rider_masses_kg: Sequence[float]) -> str | None:
+    """Return the balance advisor's advice (``showops.rig.advisor``) or None where it is not installed."""
+    advise = _advise_balance()
     if advise is None:
         return None
     try:
@@ -158,8 +165,8 @@ def advisor_text(rig_model, rider_masses_kg: Sequence[float]) -> str | None:
 class RigSolver:
     """``solve(rig_model, masses)`` with a cache keyed by rig version and sorted masses.
 
-    A season repeats the same casts night after night; one solve per distinct
-    (rig version, riders) is enough.
+    A season repeats the same casts night after night; one solve (and one procedure
+    check) per distinct (rig version, riders) is enough. Share one across a season.
     """
 
     def __init__(self, solve: Callable | None = None):
@@ -167,6 +174,9 @@ class RigSolver:
             from showops.rig import solve_rig as solve
         self._solve = solve
         self._cache: dict[tuple, Any] = {}
+        self._dicts: dict[int, dict] = {}
+        #: procedure checker results, keyed by procedure version, result and staffed roles
+        self.checked: dict[tuple, Any] = {}
         self.solves = 0
 
     def __call__(self, rig_model, rider_masses_kg: Sequence[float]):
@@ -177,6 +187,13 @@ class RigSolver:
             self._cache[key] = result
             self.solves += 1
         return result
+
+    def as_dict(self, result) -> dict:
+        """``result.to_dict()``, computed once per result; each caller gets its own top-level copy."""
+        d = self._dicts.get(id(result))
+        if d is None:
+            d = self._dicts[id(result)] = result.to_dict()
+        return dict(d)
 
 
 # --------------------------------------------------------------------------- the rules
@@ -340,6 +357,17 @@ class _Context:
     advisor: Callable[[Any, Sequence[float]], str | None] = advisor_text
     checker: Callable[..., tuple[list[str] | None, str | None]] = check_cue_procedure
 
+    def check(self, procedure, result, context):
+        """Run the checker once per procedure version, rig result and set of staffed roles."""
+        if procedure is None:
+            return self.checker(procedure, result, context)
+        key = (id(self.checker), getattr(procedure, "version", id(procedure)), id(result),
+               tuple(sorted(context["crew"])), len(context["riders"]))
+        found = self.solver.checked.get(key)
+        if found is None:
+            found = self.solver.checked[key] = self.checker(procedure, result, context)
+        return found
+
 
 def _rider_reasons(cue: CueInput, riders: Sequence[Rider], starts_at: datetime, ctx: _Context):
     """The rules that depend on who rides: load, clearance, rehearsal. Returns (result, reasons)."""
@@ -388,7 +416,7 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
                "crew": {role: [p.name for r2, p in cue.crew if r2 == role] for role, _ in cue.crew},
                "performance": {"id": perf.performance_id, "starts_at": perf.starts_at.isoformat()},
                "cue": {"number": cue.number, "name": cue.name}}
-    findings, rule_set = ctx.checker(procedure, result, context) if result is not None else (None, None)
+    findings, rule_set = ctx.check(procedure, result, context) if result is not None else (None, None)
     reasons += procedure_reasons(procedure, findings)
     staffing = unstaffed_roles(procedure, cue.crew, cue.riders, cue.rig_model)
     staffing += role_not_held(cue.crew)
@@ -407,7 +435,7 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
         procedure_title=getattr(procedure, "title", None),
         procedure_version=getattr(procedure, "version", None),
         rider_total_kg=getattr(result, "rider_mass_kg", None) if result is not None else None,
-        load=result.to_dict() if result is not None else None,
+        load=ctx.solver.as_dict(result) if result is not None else None,
         verdict=verdict_of(reasons),
         reasons=tuple(reasons),
         fixes=tuple(fixes),

@@ -428,6 +428,7 @@ class _Season:
         for perf, cue, role, pid in q("SELECT performance_id, cue_id, role, person_id FROM performance_crew "
                                       "ORDER BY role, person_id"):
             self.night_crew.setdefault((perf, cue), []).append((role, pid))
+        self._since: dict[tuple[int, int], datetime | None] | None = None
         self.readiness = _care_hook(db, "readiness_reasons")
         rehearsal_records = _care_hook(db, "rehearsal_records")
         self.rehearsals = None
@@ -436,15 +437,24 @@ class _Season:
 
     def cast_since(self, perf_id: int, cue_id: int) -> datetime | None:
         """Start of the last earlier performance whose riders on this cue differ from tonight's."""
-        tonight = self.night_riders.get((perf_id, cue_id), [])
-        this = self.performances[perf_id]
-        since = None
-        for pid, row in self.performances.items():
-            if row[1] != this[1] or row[3] >= this[3]:
-                continue
-            if self.night_riders.get((pid, cue_id), []) != tonight:
-                since = datetime.fromisoformat(row[3])
-        return since
+        if self._since is None:
+            self._since = {}
+            last: dict[tuple[int, int], tuple[tuple, datetime | None, datetime]] = {}
+            for pid, (_, production, _, starts_at, _) in self.performances.items():  # in date order
+                when = datetime.fromisoformat(starts_at)
+                for row in self.cues.get(production, []):
+                    cue = row[0]
+                    cast = tuple(self.night_riders.get((pid, cue), ()))
+                    previous = last.get((production, cue))
+                    if previous is None:
+                        since = None
+                    elif previous[0] != cast:
+                        since = previous[2]
+                    else:
+                        since = previous[1]
+                    last[(production, cue)] = (cast, since, when)
+                    self._since[(pid, cue)] = since
+        return self._since.get((perf_id, cue_id))
 
     def performance_input(self, perf_id: int) -> PerformanceInput:
         _, production_id, venue_id, starts_at, sm = self.performances[perf_id]

@@ -130,3 +130,45 @@ def test_demo_without_rig_files_skips_them_and_says_so(db, tmp_path, today):
     assert ids.rigs == ()
     assert len(ids.skipped) == 2 and all("no file" in s for s in ids.skipped)
     assert all(c["rig"] is None for c in store.cue_list(db))
+
+
+def test_cast_change_dates_follow_the_running_order(demo):
+    db, ids = demo
+    season = store._Season(db)
+    perf = ids.performances
+    start = {p: datetime.fromisoformat(season.performances[p][3]) for p in perf}
+    duet = ids.cues["5"]
+    heavy = perf.index(ids.heavy_performance)
+    assert season.cast_since(perf[0], duet) is None                       # never changed
+    assert season.cast_since(perf[heavy], duet) == start[perf[heavy - 1]]  # the cover goes on
+    assert season.cast_since(perf[heavy + 1], duet) == start[perf[heavy]]  # and comes off again
+    assert season.cast_since(perf[-1], duet) == start[perf[heavy]]
+    assert season.cast_since(perf[-1], ids.cues["3"]) is None
+
+
+def test_rehearsal_records_from_rig_care_block_the_unrehearsed_cover(demo, monkeypatch, today):
+    # DGUV Vorschrift 17 §20: rehearsal on cast changes. Everyone rehearsed a week before
+    # the run; nobody since: the understudy's night, and the night after (the first cast
+    # back on), both need a new rehearsal.
+    db, ids = demo
+    week_before = datetime.combine(today - timedelta(days=7), datetime.min.time())
+    records = [(pid, "orchard-lift", week_before.isoformat()) for pid in ids.people.values()]
+
+    class Care:
+        @staticmethod
+        def rehearsal_records(db):
+            return records
+
+    monkeypatch.setattr(store, "_care_hook", lambda db, name: getattr(Care, name, None))
+    plans = {p.performance_id: p for p in store.night_plans(db)}
+    heavy = plans[ids.heavy_performance]
+    texts = [r.text for r in cue(heavy, "5").reasons if r.limit == "rehearsal"]
+    assert sorted(texts) == sorted(
+        f"{name} has not rehearsed on orchard-lift since the cast changed after "
+        f"{plans[ids.performances[2]].starts_at:%Y-%m-%d %H:%M}" for name in (d.UNDERSTUDY, "Saskia Dunmore"))
+    assert not [r for r in cue(plans[ids.performances[1]], "5").reasons if r.limit == "rehearsal"]
+
+    records.append((ids.understudy, "orchard-lift", (heavy.starts_at - timedelta(hours=3)).isoformat()))
+    records.append((ids.people["Saskia Dunmore"], "orchard-lift", (heavy.starts_at - timedelta(hours=3)).isoformat()))
+    heavy = store.load_night_plan(db, ids.heavy_performance)
+    assert not [r for r in cue(heavy, "5").reasons if r.limit == "rehearsal"]
