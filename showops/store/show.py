@@ -21,7 +21,7 @@ from typing import Any, Iterable, Sequence
 import sqlite_utils
 
 from showops.errors import NotFound, RigFileError, ShowopsError, ValidationError
-from showops.show.model import CueNight, NightPlan
+from showops.show.model import Assignment, CueNight, NightPlan
 from showops.show.verdicts import (CrewMember, CueInput, PerformanceInput, Rehearsal, Rider, RigSolver,
                                    Training, night_plan)
 from showops.store.db import transaction
@@ -378,10 +378,11 @@ def cue_list(db: sqlite_utils.Database, production_id: int | None = None) -> lis
 class _Season:
     """Everything the verdicts need, read once (a season is a few thousand rows)."""
 
-    def __init__(self, db: sqlite_utils.Database):
+    def __init__(self, db: sqlite_utils.Database, solver: RigSolver | None = None):
         from showops.rig import parse_rig
 
         self.db = db
+        self.solver = solver or RigSolver()
         q = db.execute
         self.rigs: dict[str, Any] = {}
         self.rig_errors: dict[str, str] = {}
@@ -472,8 +473,12 @@ class _Season:
             if rig and rig in self.rig_errors:
                 extra.append(self.rig_errors[rig])
             if rig and self.readiness is not None:
-                readiness = tuple(self.readiness(self.db, perf_id, CueNight(cue_id=cue_id, number=number,
-                                                                             name=name, rig=rig)))
+                load = None
+                if rig_model is not None:  # the same cached solve the verdicts use
+                    load = self.solver.as_dict(self.solver(rig_model, [r.mass_kg for r in riders]))
+                readiness = tuple(self.readiness(self.db, perf_id, CueNight(
+                    cue_id=cue_id, number=number, name=name, rig=rig, riders=tuple(r.name for r in riders),
+                    crew=tuple(Assignment(role, p.person_id, p.name) for role, p in crew), load=load)))
             cue = CueInput(cue_id=cue_id, number=number, name=name, rig=rig, rig_model=rig_model,
                            procedure=self.procedures.get(proc) if proc else None, procedure_slug=proc,
                            riders=riders, crew=crew, casts=casts,
@@ -530,15 +535,14 @@ def load_night_plan(db: sqlite_utils.Database, performance_ref: Any, *, solver: 
     :raises NotFound: when there is no such performance.
     """
     perf_id = find_performance(db, performance_ref)
-    season = _Season(db)
-    return night_plan(season.performance_input(perf_id), rehearsals=season.rehearsals, solver=solver)
+    season = _Season(db, solver)
+    return night_plan(season.performance_input(perf_id), rehearsals=season.rehearsals, solver=season.solver)
 
 
 def night_plans(db: sqlite_utils.Database, *, solver: RigSolver | None = None) -> list[NightPlan]:
     """Return every performance's :class:`NightPlan`, in date order (solves shared across the season)."""
-    season = _Season(db)
-    solver = solver or RigSolver()
-    return [night_plan(season.performance_input(pid), rehearsals=season.rehearsals, solver=solver)
+    season = _Season(db, solver)
+    return [night_plan(season.performance_input(pid), rehearsals=season.rehearsals, solver=season.solver)
             for pid in season.performances]
 
 

@@ -172,3 +172,31 @@ def test_rehearsal_records_from_rig_care_block_the_unrehearsed_cover(demo, monke
     records.append((ids.people["Saskia Dunmore"], "orchard-lift", (heavy.starts_at - timedelta(hours=3)).isoformat()))
     heavy = store.load_night_plan(db, ids.heavy_performance)
     assert not [r for r in cue(heavy, "5").reasons if r.limit == "rehearsal"]
+
+
+def test_rig_care_readiness_reasons_reach_the_cue_with_tonights_load(demo, monkeypatch):
+    from showops.verdict import Reason
+
+    db, ids = demo
+    seen = []
+
+    class Care:
+        @staticmethod
+        def readiness_reasons(db, performance_id, cue):
+            seen.append((performance_id, cue))
+            if performance_id == ids.performances[1] and cue.number == "3":
+                return [Reason("thorough examination overdue since 2026-11-20", limit="inspection",
+                               fix="record a thorough examination of orchard-lift")]
+            return []
+
+    monkeypatch.setattr(store, "_care_hook", lambda db, name: getattr(Care, name, None))
+    plan = store.load_night_plan(db, ids.performances[1])
+    blossom = cue(plan, "3")
+    assert blossom.verdict == "blocked"
+    assert [r.limit for r in blossom.reasons if r.level == "blocked"] == ["inspection"]
+    assert "record a thorough examination of orchard-lift" in blossom.fixes
+    asked = {c.number: c for p, c in seen}
+    assert set(asked) == {c.number for c in plan.rig_cues}          # asked for rig cues only
+    assert asked["5"].load["rider_mass_kg"] == pytest.approx(124.0)  # 61 + 55 + 2 x 4 kg, from the rig file
+    assert set(asked["5"].riders) == {"Tobiah Renn", "Saskia Dunmore"}
+    assert {a.role for a in asked["5"].crew} == {"caller", "brake", "lifters", "spotter"}
