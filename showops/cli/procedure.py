@@ -115,6 +115,9 @@ def render(procedure_file: Path, rig_file: Path | None, riders: str | None, ride
     context = render_context(load=load, crew=crew,
                              riders=[n.strip() for n in (rider_names or "").split(",") if n.strip()])
     body = render_procedure_html(proc, context)
+    for finding in check_procedure(proc, context=context):
+        if finding.rule == "placeholders_bound":
+            click.echo(finding.format(str(procedure_file)), err=True)
     page = (f'<!doctype html>\n<html lang="en"><head><meta charset="utf-8">'
             f'<meta name="viewport" content="width=device-width, initial-scale=1">'
             f"<title>{html.escape(proc.title)}</title></head>\n<body>\n{body}\n</body></html>\n")

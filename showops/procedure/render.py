@@ -20,6 +20,7 @@ import html
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any, Iterable, Literal
 
 import markdown
@@ -193,6 +194,15 @@ def check_placeholder(expression: str, bound: Mapping[str, Any]) -> PlaceholderP
     name anything starting with ``_``; every name and attribute chain must exist in
     ``bound`` (where a value is :data:`ANY` its inside is not checked).
     """
+    parsed = _parse_expression(expression)
+    if isinstance(parsed, PlaceholderProblem):
+        return parsed
+    return _walk(parsed, bound)
+
+
+@lru_cache(maxsize=1024)
+def _parse_expression(expression: str) -> nodes.Node | PlaceholderProblem:
+    """The expression's syntax tree (cached: the same placeholders recur on every page)."""
     if len(expression) > MAX_PLACEHOLDER_CHARS:
         return PlaceholderProblem("unreadable", f"placeholder is over {MAX_PLACEHOLDER_CHARS} characters")
     try:
@@ -205,7 +215,13 @@ def check_placeholder(expression: str, bound: Mapping[str, Any]) -> PlaceholderP
     if len(body) != 1 or not isinstance(body[0], nodes.Output) or len(body[0].nodes) != 1 \
             or isinstance(body[0].nodes[0], nodes.TemplateData):
         return PlaceholderProblem("unreadable", "placeholder is not one expression")
-    return _walk(body[0].nodes[0], bound)
+    return body[0].nodes[0]
+
+
+@lru_cache(maxsize=1024)
+def _compiled(expression: str):
+    """The sandboxed template of one placeholder that passed :func:`check_placeholder`."""
+    return _ENV.from_string("{{" + expression + "}}")
 
 
 def _walk(node: nodes.Node, bound: Mapping[str, Any]) -> PlaceholderProblem | None:
@@ -294,7 +310,7 @@ def bind_placeholder(expression: str, context: Mapping[str, Any]) -> tuple[str, 
     problem = check_placeholder(expression, context)
     if problem is None:
         try:
-            value = _ENV.from_string("{{" + expression + "}}").render(dict(context))
+            value = _compiled(expression).render(dict(context))
             return value, None
         except SecurityError as exc:
             problem = PlaceholderProblem("refused", f"placeholder refused by the sandbox ({exc})")
