@@ -37,6 +37,8 @@ _BULLET = re.compile(r"^ {0,3}[-*+][ \t]+(.*?)\s*$")
 _FIELD = re.compile(r"^([A-Za-z][A-Za-z _-]{0,30}?)[ \t]*:[ \t]*(.*?)\s*$")
 _FENCE = re.compile(r"^ {0,3}(```|~~~)")
 _HOLD = re.compile(r"^([0-9]+(?:\.[0-9]+)?)\s*(s|sec|secs|second|seconds|min|mins|minute|minutes)?$", re.I)
+#: Characters no text file holds (tab, line breaks and form feed are allowed).
+_CONTROL = re.compile("[\x01-\x08\x0b\x0e-\x1f\ud800-\udfff]")
 _QUOTES = "\"'“”‘’«»"
 
 #: Every state word a step may name, e.g. "brake on".
@@ -90,7 +92,7 @@ def parse_procedure(text: str, source: str = "<procedure>") -> Procedure:
     if not text.strip():
         raise ProcedureFileError(f"{source}: the file is empty; a procedure starts with header lines "
                                  "(Title:, Rig:, Roles:, Signal:) and has ## phases with ### steps")
-    controls = sum(1 for ch in text if (ord(ch) < 32 and ch not in "\t\n\r\f") or 0xD800 <= ord(ch) <= 0xDFFF)
+    controls = len(_CONTROL.findall(text))
     if controls > max(8, len(text) // 100):
         raise ProcedureFileError(f"{source}: not text ({controls} control characters); "
                                  "a procedure is Markdown text")
@@ -217,21 +219,22 @@ class _Parser:
         for index in range(start, len(self.lines)):
             number = index + 1
             line = self.lines[index]
-            if _FENCE.match(line):
+            first = line.lstrip(" ")[:1]  # dispatch on the first character: most lines are bullets
+            if first in ("`", "~") and _FENCE.match(line):
                 in_fence = not in_fence
                 self.end_field()
                 continue
             if in_fence:
                 continue
-            heading = _HEADING.match(line)
+            heading = _HEADING.match(line) if first == "#" else None
             if heading:
                 self.on_heading(len(heading.group(1)), (heading.group(2) or "").strip(), number)
                 continue
-            bullet = _BULLET.match(line)
+            bullet = _BULLET.match(line) if first in ("-", "*", "+") else None
             if bullet:
                 self.on_bullet(bullet.group(1), number, line)
                 continue
-            if not line.strip():
+            if not first or not line.strip():
                 self.end_field()
                 continue
             if self.step is not None and self.step.last_field is not None:
