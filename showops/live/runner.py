@@ -43,7 +43,7 @@ CueStatus = Literal["waiting", "running", "held", "complete", "ended"]
 StepStatus = Literal["waiting", "due", "confirmed", "checked"]
 
 #: The app role that may start, resume and end cues and sign off the night.
-STAGE_MANAGER = "stage manager"
+STAGE_MANAGER = "stage_manager"
 
 #: Roles held by performers, who carry no screen on stage: their answer (the
 #: ``reply`` of the step) is heard and confirmed by the person in the other role,
