@@ -164,10 +164,18 @@ class CueState:
     @property
     def current(self) -> StepState | None:
         """The first step not yet done (confirmed and, if it has one, checked)."""
-        return next((s for s in self.steps if not s.done), None)
+        # Steps are done in order, so the first not done only moves forward: keep a cursor.
+        cursor = self.__dict__.get("_cursor", 0)
+        while cursor < len(self.steps) and self.steps[cursor].done:
+            cursor += 1
+        self.__dict__["_cursor"] = cursor
+        return self.steps[cursor] if cursor < len(self.steps) else None
 
     def find(self, key: str | None) -> StepState | None:
-        return next((s for s in self.steps if s.step.key == key), None)
+        index = self.__dict__.get("_by_key")
+        if index is None or len(index) != len(self.steps):
+            index = self.__dict__["_by_key"] = {s.step.key: s for s in reversed(self.steps)}
+        return index.get(key) if key is not None else None
 
 
 @dataclass(frozen=True)

@@ -96,9 +96,19 @@ class PlanCache:
         self._lock = threading.Lock()
         self._plans: dict[tuple[int, int], tuple[float, int, NightPlan]] = {}
 
-    def get(self, db: sqlite_utils.Database, performance_id: int, *, fresh: bool = False) -> NightPlan:
-        key = (id(db.conn), performance_id)
-        version = db.conn.execute("PRAGMA data_version").fetchone()[0]
+    def get(self, db: sqlite_utils.Database, performance_id: int, *, fresh: bool = False,
+            writer: LogWriter | None = None) -> NightPlan:
+        """Return the plan, loading it when missing, older than the TTL or outdated.
+
+        :param writer: for a read on a request thread: key on the writer's view of other
+            connections' commits (:attr:`LogWriter.outside_version`), so the log rows the
+            writer appends do not throw the plan away on every confirmation.
+        """
+        if writer is not None:
+            key, version = (0, performance_id), writer.outside_version
+        else:
+            key = (id(db.conn), performance_id)
+            version = db.conn.execute("PRAGMA data_version").fetchone()[0]
         now = time.monotonic()
         if not fresh:
             with self._lock:
@@ -267,7 +277,7 @@ class Live:
 
         :raises NotFound: for an unknown performance or cue.
         """
-        plan = self.plans.get(db, performance_id)
+        plan = self.plans.get(db, performance_id, writer=self.writer)
         setup = setup_for(plan, _cue(plan, cue_id))
         state = _replayed(db, setup)
         view = describe(state, now or self.clock())
@@ -280,7 +290,7 @@ class Live:
 
         :raises NotFound: for an unknown performance.
         """
-        plan = self.plans.get(db, performance_id)
+        plan = self.plans.get(db, performance_id, writer=self.writer)
         states = {s.setup.cue_id: s for s in _night_states(db, plan)}
         at = now or self.clock()
         cues, live = [], None
