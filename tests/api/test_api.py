@@ -171,3 +171,16 @@ def test_the_openapi_document_is_valid_and_lists_every_route(app, anonymous):
             for method in rule.methods - {"HEAD", "OPTIONS"}:
                 assert (method, path) in listed, (method, path)
     assert doc["paths"]["/api/performances/{performance_id}/cues/{cue_id}/confirm"]["post"]["responses"]["409"]
+
+
+def test_record_sign_in_writes_a_sign_in_row(app, devices):
+    from showops.store import users as store_users
+    from showops.store.log import iter_log
+    from showops.web.areas.api import record_sign_in
+
+    user = store_users.find_user(app.extensions["showops_stores"].get(), "margit")
+    with app.test_request_context("/sign-in", method="POST"):
+        row = record_sign_in(user, method="pin", performance_id=1)
+    assert (row["event"], row["person_id"], row["role"], row["performance_id"]) == ("sign_in", 2, "crew", 1)
+    assert row["detail"] == '{"method":"pin"}'
+    assert [r["id"] for r in iter_log(app.extensions["showops_stores"].get())] == [row["id"]]

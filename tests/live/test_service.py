@@ -154,3 +154,26 @@ def test_the_demo_past_performance_runs_through_the_service(db, lift):
     assert verify_log(db) is None
     with pytest.raises(Exception, match="already has show log rows"):
         svc.run_demo_performance(db, 2, plans=lift.plans)
+
+
+def test_the_real_demo_past_performance_runs_every_cue_it_can(tmp_path):
+    """The shipped demo (showops.store.show.install_demo) through the real night plan:
+    every rig cue that is not blocked runs to completion, every blocked one is a
+    refused start, the night is signed off and the chain verifies."""
+    from datetime import date
+
+    from showops.store import show as store
+
+    db = open_db(tmp_path / "demo")
+    ids = store.install_demo(db, date(2026, 12, 2))
+    plan = store.load_night_plan(db, ids.past_performance)
+    counts = svc.run_demo_performance(db, ids.past_performance)
+    runnable = [c for c in plan.rig_cues if c.verdict != "blocked" and c.procedure is not None]
+    blocked = [c for c in plan.rig_cues if c.verdict == "blocked"]
+    assert counts["cues"] == len(runnable) == count(db, "cue_completed")
+    starts = [r for r in iter_log(db) if r["event"] == "refused" and '"code":"blocked"' in r["detail"]]
+    assert len(starts) == len(blocked)
+    assert count(db, "signoff") == 1
+    times = [r["at_utc"] for r in iter_log(db)]
+    assert times[0] > plan.starts_at.astimezone(timezone.utc).isoformat()[:16]
+    assert verify_log(db) is None

@@ -79,6 +79,16 @@ def close_live(app) -> None:
         service.writer.close()
 
 
+def record_sign_in(user, *, method: str = "password", performance_id: int | None = None) -> dict:
+    """Log a sign-in as a ``sign_in`` row (for ``showops.web.auth`` to call after a
+    successful sign-in; the row carries the person, the app role and the device).
+
+    :returns: the log row.
+    """
+    actor = Actor(user.person_id, user.display_name, frozenset({user.role}), _auth().device_id())
+    return live_service().sign_in(_db(), actor, performance_id=performance_id, method=method)
+
+
 def _actor() -> Actor:
     auth = _auth()
     user = auth.current_user()
