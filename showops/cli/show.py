@@ -213,6 +213,24 @@ def _read_text(path: Path) -> str:
         raise ShowopsError(f"{path}: not UTF-8 text (save the spreadsheet as CSV UTF-8)") from None
 
 
+@import_group.command("cues")
+@click.argument("csv_file", type=click.Path(dir_okay=False, path_type=Path))
+@instance_option
+@click.option("--production", "production_id", type=int, default=None, help="Production id (default: the only one).")
+def import_cues(csv_file: Path, instance: Path, production_id: int | None) -> None:
+    """Append cues to the cue list from CSV_FILE: columns number, name, and optionally
+    rig and procedure (slugs). Nothing is imported when any row is bad.
+
+    \b
+    Example:
+      showops import cues cues.csv
+    """
+    text = _read_text(csv_file)
+    db = open_db(instance, create=False)
+    report = store.import_cues_csv(db, text, production_id or _only(db, "production"), source=str(csv_file))
+    click.echo(f"Imported {len(report.added)} cues from {csv_file}: {', '.join(report.added)}")
+
+
 @main.group("export")
 def export_group() -> None:
     """Export the cue list or the night's verdicts as CSV or JSON."""

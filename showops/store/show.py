@@ -870,3 +870,57 @@ def to_csv(rows: list[dict], columns: Sequence[str]) -> str:
     for row in rows:
         writer.writerow({k: row.get(k, "") if row.get(k) is not None else "" for k in columns})
     return buffer.getvalue()
+
+
+CUE_COLUMNS = ("number", "name")
+CUE_OPTIONAL = ("rig", "procedure")
+
+
+def import_cues_csv(db: sqlite_utils.Database, text: str, production_id: int, *,
+                    source: str = "cues.csv") -> ImportReport:
+    """Append cues to a production's cue list from CSV (columns ``number``, ``name``;
+    optional ``rig``, ``procedure``), in the file's order, all or nothing.
+
+    :raises ValidationError: for a missing or unknown column.
+    :raises NotFound: when the production does not exist.
+    :raises ImportRefused: listing every row that could not be taken (nothing is written).
+    """
+    if not db.execute("SELECT 1 FROM production WHERE id = ?", [production_id]).fetchone():
+        raise NotFound(f"production {production_id} does not exist")
+    rows = _read_csv(text, source, CUE_COLUMNS, CUE_OPTIONAL)
+    known_rigs = set(rig_slugs(db))
+    known_procedures = {r[0] for r in db.execute("SELECT slug FROM procedure")}
+    taken = {r[0] for r in db.execute("SELECT number FROM cue WHERE production_id = ?", [production_id])}
+    problems, seen, good = [], {}, []
+    for number, row in rows:
+        if row is None:
+            problems.append(f"row {number}: more cells than columns")
+            continue
+        try:
+            cue_number = row["number"]
+            if not cue_number:
+                raise ValidationError("number", "empty (give the cue number, e.g. 12 or 12a)")
+            name = _name(row["name"], "name")
+            rig = row.get("rig") or None
+            procedure = row.get("procedure") or None
+            if rig and rig not in known_rigs:
+                raise ValidationError("rig", f"unknown rig {rig!r} (known: {', '.join(sorted(known_rigs)) or 'none yet'})")
+            if procedure and procedure not in known_procedures:
+                raise ValidationError("procedure", f"unknown procedure {procedure!r} "
+                                                   f"(known: {', '.join(sorted(known_procedures)) or 'none yet'})")
+            if rig and not procedure and rig in known_procedures:
+                procedure = rig  # a rig's own procedure carries its slug
+            if cue_number in seen:
+                raise ValidationError("number", f"cue {cue_number} is also on row {seen[cue_number]}")
+            if cue_number in taken:
+                raise ValidationError("number", f"cue {cue_number} already exists in this production")
+            seen[cue_number] = number
+            good.append((cue_number, name, rig, procedure))
+        except ValidationError as exc:
+            problems.append(f"row {number}, {exc}")
+    if problems:
+        raise ImportRefused(source, problems)
+    with transaction(db):
+        for cue_number, name, rig, procedure in good:
+            add_cue(db, production_id, cue_number, name, rig=rig, procedure=procedure)
+    return ImportReport(source, len(rows), tuple(f"{n} {name}" for n, name, _, _ in good))
