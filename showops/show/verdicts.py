@@ -175,12 +175,22 @@ class RigSolver:
         self._solve = solve
         self._cache: dict[tuple, Any] = {}
         self._dicts: dict[int, dict] = {}
+        self._versions: dict[int, tuple[Any, str | None]] = {}
         #: procedure checker results, keyed by procedure version, result and staffed roles
         self.checked: dict[tuple, Any] = {}
         self.solves = 0
 
+    def version(self, model) -> str | None:
+        """``model.version`` (a SHA-256 of its text, computed on each access), once per model."""
+        if model is None:
+            return None
+        found = self._versions.get(id(model))
+        if found is None or found[0] is not model:
+            found = self._versions[id(model)] = (model, getattr(model, "version", None))
+        return found[1]
+
     def __call__(self, rig_model, rider_masses_kg: Sequence[float]):
-        key = (rig_model.version, tuple(sorted(float(m) for m in rider_masses_kg)))
+        key = (self.version(rig_model), tuple(sorted(float(m) for m in rider_masses_kg)))
         result = self._cache.get(key)
         if result is None:
             result = self._solve(rig_model, list(rider_masses_kg))
@@ -361,7 +371,7 @@ class _Context:
         """Run the checker once per procedure version, rig result and set of staffed roles."""
         if procedure is None:
             return self.checker(procedure, result, context)
-        key = (id(self.checker), getattr(procedure, "version", id(procedure)), id(result),
+        key = (id(self.checker), self.solver.version(procedure), id(result),
                tuple(sorted(context["crew"])), len(context["riders"]))
         found = self.solver.checked.get(key)
         if found is None:
@@ -431,9 +441,9 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
         base,
         rig=cue.rig,
         rig_name=getattr(cue.rig_model, "name", None),
-        rig_version=getattr(cue.rig_model, "version", None),
+        rig_version=ctx.solver.version(cue.rig_model),
         procedure_title=getattr(procedure, "title", None),
-        procedure_version=getattr(procedure, "version", None),
+        procedure_version=ctx.solver.version(procedure),
         rider_total_kg=getattr(result, "rider_mass_kg", None) if result is not None else None,
         load=ctx.solver.as_dict(result) if result is not None else None,
         verdict=verdict_of(reasons),

@@ -10,6 +10,7 @@ to a caller outside :mod:`showops.show.verdicts` carries one person's mass.
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import importlib
 import math
@@ -378,9 +379,7 @@ def cue_list(db: sqlite_utils.Database, production_id: int | None = None) -> lis
 class _Season:
     """Everything the verdicts need, read once (a season is a few thousand rows)."""
 
-    def __init__(self, db: sqlite_utils.Database, solver: RigSolver | None = None):
-        from showops.rig import parse_rig
-
+    def __init__(self, db: sqlite_utils.Database, solver: RigSolver | None = None, only: int | None = None):
         self.db = db
         self.solver = solver or RigSolver()
         q = db.execute
@@ -389,13 +388,13 @@ class _Season:
         for slug, text in q("SELECT rig_slug, text FROM rig_version WHERE id IN "
                             "(SELECT MAX(id) FROM rig_version GROUP BY rig_slug)"):
             try:
-                self.rigs[slug] = parse_rig(text, source=f"{slug} (stored)")
+                self.rigs[slug] = _parse_rig_cached(text, f"{slug} (stored)")
             except (RigFileError, ShowopsError) as exc:  # e.g. a kind this build does not know
                 self.rig_errors[slug] = str(exc)
         self.procedures: dict[str, Any] = {}
         for slug, text in q("SELECT procedure_slug, text FROM procedure_version WHERE id IN "
                             "(SELECT MAX(id) FROM procedure_version GROUP BY procedure_slug)"):
-            self.procedures[slug] = read_procedure(text, f"procedures/{slug}.md")
+            self.procedures[slug] = _read_procedure_cached(text, f"procedures/{slug}.md")
         self.names = dict(q("SELECT id, name FROM person"))
         cleared: dict[int, set[str]] = {}
         for pid, rig in q("SELECT person_id, rig_slug FROM performer_rig"):
@@ -426,8 +425,12 @@ class _Season:
         for perf, cue, pid in q("SELECT performance_id, cue_id, person_id FROM performance_rider ORDER BY person_id"):
             self.night_riders.setdefault((perf, cue), []).append(pid)
         self.night_crew: dict[tuple[int, int], list[tuple[str, int]]] = {}
-        for perf, cue, role, pid in q("SELECT performance_id, cue_id, role, person_id FROM performance_crew "
-                                      "ORDER BY role, person_id"):
+        crew_sql = "SELECT performance_id, cue_id, role, person_id FROM performance_crew"
+        crew_args: list = []
+        if only is not None:
+            crew_sql += " WHERE performance_id = ?"
+            crew_args.append(only)
+        for perf, cue, role, pid in q(crew_sql + " ORDER BY role, person_id", crew_args):
             self.night_crew.setdefault((perf, cue), []).append((role, pid))
         self._since: dict[tuple[int, int], datetime | None] | None = None
         self.readiness = _care_hook(db, "readiness_reasons")
@@ -492,6 +495,19 @@ class _Season:
                                 crew_pool=pool)
 
 
+@functools.lru_cache(maxsize=32)
+def _parse_rig_cached(text: str, source: str):
+    """Parse a stored rig text once per process (rig models are frozen; a new text is a new key)."""
+    from showops.rig import parse_rig
+
+    return parse_rig(text, source=source)
+
+
+@functools.lru_cache(maxsize=32)
+def _read_procedure_cached(text: str, source: str):
+    return read_procedure(text, source)
+
+
 def _as_datetime(value) -> datetime:
     if isinstance(value, datetime):
         return value.replace(tzinfo=None)
@@ -535,7 +551,7 @@ def load_night_plan(db: sqlite_utils.Database, performance_ref: Any, *, solver: 
     :raises NotFound: when there is no such performance.
     """
     perf_id = find_performance(db, performance_ref)
-    season = _Season(db, solver)
+    season = _Season(db, solver, only=perf_id)
     return night_plan(season.performance_input(perf_id), rehearsals=season.rehearsals, solver=season.solver)
 
 
