@@ -151,6 +151,12 @@ def add_procedure(db: sqlite_utils.Database, slug: str, text: str, *, rig: str |
     return sha
 
 
+def link_procedure(db: sqlite_utils.Database, slug: str, rig: str) -> int:
+    """Give every cue on ``rig`` that has no procedure this one; return how many cues changed."""
+    cursor = db.execute("UPDATE cue SET procedure_slug = ? WHERE rig_slug = ? AND procedure_slug IS NULL", [slug, rig])
+    return cursor.rowcount
+
+
 def _header(text: str, key: str) -> str | None:
     for line in text.splitlines():
         if line.startswith("#"):
