@@ -166,7 +166,7 @@ def format_figure(value: float, unit: str) -> str:
     if value is None or not math.isfinite(value):
         return "n/a"
     if unit:
-        digits = 0 if abs(value) >= 10 else 1
+        digits = 0 if abs(value) >= 10 or abs(value - round(value)) < 1e-9 else 1
         return f"{value:,.{digits}f} {unit}"
     return f"{value:.2f}"
 
@@ -219,14 +219,31 @@ class LimitBar(Flowable):
     def wrap(self, avail_width, avail_height):
         return self.width, self.height + 2 * self.PROUD
 
+    @property
+    def shown_usage(self) -> float:
+        """The usage drawn: NaN, inf or a non-number count as over the scale; below 0 as 0."""
+        usage = self.usage
+        if isinstance(usage, bool) or not isinstance(usage, (int, float)) or not math.isfinite(usage):
+            return self.scale_max * 2
+        return max(float(usage), 0.0)
+
+    @property
+    def fill_width(self) -> float:
+        """The length of the filled part of the bar (points)."""
+        return min(self.shown_usage, self.scale_max) / self.scale_max * self.width
+
+    @property
+    def limit_x(self) -> float:
+        """Where the limit line stands along the bar (points)."""
+        return self.width / self.scale_max
+
     def draw(self):
         c = self.canv
         c.translate(0, self.PROUD)
         w, h, smax = self.width, self.height, self.scale_max
-        usage = self.usage if isinstance(self.usage, (int, float)) and math.isfinite(self.usage) else smax * 2
-        usage = max(usage, 0.0)
-        filled = min(usage, smax) / smax * w
-        limit_x = w / smax
+        usage = self.shown_usage
+        filled = self.fill_width
+        limit_x = self.limit_x
         c.saveState()
         c.setStrokeColor(INK)
         c.setLineWidth(0.8)

@@ -298,7 +298,7 @@ def _riders_and_crew(cue: CueNight, width: float) -> list:
     rows.append([Bold("Riders' total (with allowance)"), total_cell])
     rows.append([Bold("Emergency signal"), Bold(cue.signal or "NONE AGREED - do not run until one is agreed")])
     roles = tuple(getattr(cue.procedure, "roles", ()) or ())
-    for role in roles + tuple(a.role for a in cue.crew if a.role not in roles):
+    for role in dict.fromkeys(roles + tuple(a.role for a in cue.crew)):
         if role == RIDER_ROLE:
             continue
         rows.append([Bold(role.capitalize()), people(cue, role)])

@@ -14,7 +14,7 @@ import re
 import pypdf
 import pytest
 
-from conftest import MASSES, PRINTED_AT, PROCEDURE, RIG_FILE, make_plan
+from sheet_plans import MASSES, PRINTED_AT, PROCEDURE, RIG_FILE, make_plan
 from showops.errors import ValidationError
 from showops.sheets import live_url, render_crew_sheet
 from showops.sheets.common import format_figure

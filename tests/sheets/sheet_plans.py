@@ -10,8 +10,6 @@ from __future__ import annotations
 from datetime import datetime, timezone
 from pathlib import Path
 
-import pytest
-
 from showops.procedure.model import Phase, Procedure, Step
 from showops.rig import load_rig, solve_rig
 from showops.show.model import Assignment, CueNight, NightPlan
@@ -192,13 +190,3 @@ def make_plan(performance_id: int = 4, *, heavy: bool = False, n_rig_cues: int =
                      company="Kestrel Yard Dance Company", venue="Ferrier Street Drill Hall, Aldmouth",
                      starts_at=datetime(2026, 12, 12, 19, 30), stage_manager="Halden Voss",
                      cues=tuple(cues), readiness=readiness)
-
-
-@pytest.fixture
-def plan() -> NightPlan:
-    return make_plan()
-
-
-@pytest.fixture
-def heavy_plan() -> NightPlan:
-    return make_plan(5, heavy=True)
