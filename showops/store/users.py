@@ -374,3 +374,13 @@ def sign_in_with_pin(db: sqlite_utils.Database, username: str, pin: str, *, addr
 def pin_users(db: sqlite_utils.Database) -> list[User]:
     """Return the active crew users who have a PIN (the names on the tablet's sign-in)."""
     return [u for u in list_users(db) if u.role == "crew" and u.has_pin and u.active]
+
+
+def people_to_link(db: sqlite_utils.Database) -> list[dict]:
+    """Return every person of the cast and crew (``id``, ``name``) with the user name
+    linked to them (``username``, or None), by name. Empty before any person exists."""
+    if "person" not in db.table_names():
+        return []
+    rows = db.execute("SELECT p.id, p.name, u.username FROM person p LEFT JOIN web_user u ON u.person_id = p.id "
+                      "ORDER BY p.name")
+    return [{"id": i, "name": n, "username": u} for i, n, u in rows]
