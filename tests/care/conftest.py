@@ -25,6 +25,7 @@ class Scene:
     next_week: int
     cue: int
     people: dict
+    instance: Path
 
 
 @pytest.fixture
@@ -55,4 +56,4 @@ def scene(tmp_path) -> Scene:
         show_store.assign_crew(db, perf, cue, "caller", [people["Sam Okoro"]])
         show_store.assign_crew(db, perf, cue, "brake", [people["Ivo Marsh"]])
         show_store.assign_crew(db, perf, cue, "lifters", [people["Nell Varga"]])
-    return Scene(db, tonight, next_week, cue, people)
+    return Scene(db, tonight, next_week, cue, people, tmp_path / "instance")
