@@ -146,8 +146,10 @@ class ChecklistItem:
 
     key: str
     title: str
-    role: str | None
-    check: str | None = None
+    role: str | None                 # who answers it (the step's ``by``)
+    checker: str | None = None       # who checks the answer (the step's ``check``)
+    expect: str | None = None        # what should be seen (the step's ``reply``)
+    note: str | None = None          # how to look (the step's ``note``)
     load_trial: bool = False
     line: int = 0
 

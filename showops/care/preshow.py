@@ -1,7 +1,8 @@
 """The pre-show check: a short list written in the procedure file format.
 
-Each step of the checklist file is one item; ``by`` is the role that answers it and
-``check`` says what to look at. An item whose step moves the platform (``sets:
+Each step of the main phases of the checklist file is one item: ``by`` is the role
+that answers it, ``check`` the role that checks the answer, ``reply`` what should be
+seen and ``note`` how to look. An item whose step moves the platform (``sets:
 platform up`` or ``platform down``) is the load trial in motion, and a checklist
 without one is refused: a check before each use includes a trial in motion (DGUV
 Grundsatz 315-390, from memory; LOLER 1998 reg 9(3)(b) inspections between thorough
@@ -39,8 +40,8 @@ def checklist_items(procedure) -> tuple[ChecklistItem, ...]:
     items = []
     for step in procedure.main_steps:
         moves = any(s.strip().lower() in ("platform up", "platform down") for s in step.sets)
-        items.append(ChecklistItem(key=step.key, title=step.title, role=step.by, check=step.check or step.note,
-                                   load_trial=moves, line=step.line))
+        items.append(ChecklistItem(key=step.key, title=step.title, role=step.by, checker=step.check,
+                                   expect=step.reply, note=step.note, load_trial=moves, line=step.line))
     if not items:
         raise ValidationError("checklist", f"{procedure.source}: no items (each ### heading is one item)")
     if not any(i.load_trial for i in items):

@@ -952,3 +952,173 @@ def rig_status(db: sqlite_utils.Database, performance_id: int, rig: str, *, as_o
         "open_objections": len(open_obj), "area_released": bool(area_releases(db, perf)),
         "reasons": [r.to_dict() for r in reasons], "line": summary_line(rig, reasons),
     }
+
+
+# --------------------------------------------------------------------------- the demo
+
+def checks_dir() -> "Path":
+    """Return the folder of the shipped pre-show checklists (``procedures/checks``)."""
+    from pathlib import Path
+
+    return Path(__file__).resolve().parents[2] / "procedures" / "checks"
+
+
+def _ensure_person(db: sqlite_utils.Database, name: str) -> Person:
+    """Return the person ``name``, adding them to the people list (no performer or crew role) if new."""
+    row = db.execute("SELECT id, name FROM person WHERE name = ? COLLATE NOCASE", [name]).fetchone()
+    if row is None:
+        with transaction(db) as conn:
+            pid = conn.execute("INSERT INTO person (name) VALUES (?)", [name]).lastrowid
+        return Person(name, pid)
+    return Person(row[1], row[0])
+
+
+def seed_demo_care(db: sqlite_utils.Database, demo_ids: Any, today: date, *, folder: Any = None) -> list[str]:
+    """Add the demo's care records to what ``install_demo`` made (invented data).
+
+    What it shows:
+
+    * ``bough-lever``'s six-monthly thorough examination falls due a week from today,
+      between the fourth and fifth performances: the later performances' bough cues
+      are blocked until an examination is recorded;
+    * the past performance has a complete pre-show check of each rig (with its load
+      trial), a briefing everyone confirmed and the area release;
+    * the next performance's orchard-lift briefing has one absentee (the rider of
+      "Windfall"), so that cue is blocked that night until they confirm;
+    * the understudy rehearsed another cue but never the duet with tonight's team, so
+      the heavy night's duet is also blocked for rehearsal until one is recorded;
+    * a safety objection against the orchard lift's handrail, raised and resolved.
+
+    :param demo_ids: the :class:`showops.show.demo_data.DemoIds` ``install_demo`` returned.
+    :param folder: where the checklists are (default ``procedures/checks``).
+    :returns: one line per thing made or skipped, for ``showops demo`` to print.
+    """
+    from datetime import timedelta
+    from pathlib import Path
+
+    from showops.care.schedules import add_months
+    from showops.show import demo_data as d
+
+    notes: list[str] = []
+    rigs = set(demo_ids.rigs)
+    people = demo_ids.people
+    cues = demo_ids.cues
+    examiner = _ensure_person(db, "Lise Armitage")
+    head = d.STAGE_MANAGER
+    folder = Path(folder) if folder is not None else checks_dir()
+
+    def moment(day: date, hhmm: str) -> datetime:
+        hour, minute = map(int, hhmm.split(":"))
+        return datetime(day.year, day.month, day.day, hour, minute, tzinfo=timezone.utc)
+
+    # Checklists.
+    loaded = []
+    for rig in sorted(rigs):
+        path = folder / f"{rig}-preshow.md"
+        if not path.exists():
+            notes.append(f"care: no pre-show checklist {path}")
+            continue
+        try:
+            load_checklist(db, rig, path.read_text(encoding="utf-8"), str(path))
+            loaded.append(rig)
+        except ShowopsError as exc:
+            notes.append(f"care: checklist {path} not loaded: {exc}")
+
+    # Equipment register (orchard lift; ratings invented, factors as their sources say).
+    if "orchard-lift" in rigs:
+        for name, kind, rating, factor, sees, share, people_, note in (
+                ("rear bar disc brake", "brake", 2400, 2, "brake_n", 1, True, "maker's rated holding force"),
+                ("rider lap strap", "strap", 10000, 7, "riders_n", 0.5, True, "webbing to EN 1492-1, 7:1"),
+                ("pivot pins (each)", "axle-pin", 8000, 4, "pivot_n", 1, True, ""),
+                ("casters (each)", "caster", 5000, 2, "caster_line_n", 0.5, True, "two per caster line"),
+                ("counterweight cage bolts", "counterweight-fixing", 8000, 4, "counterweight_n", 0.5, False,
+                 "two M10 bolts"),
+                ("platform bracket bolts", "platform-fixing", 6000, 5, "platform_n", 0.25, True, "four bolts")):
+            add_part(db, "orchard-lift", name, kind, carries_people=people_, rating_n=rating, design_factor=factor,
+                     sees=sees, share=share, note=note, fitted_on=today - timedelta(days=200), today=today)
+        notes.append("care: orchard-lift equipment register, 6 parts with their ratings")
+    if "bough-lever" in rigs:
+        add_part(db, "bough-lever", "brake band", "brake", carries_people=True, note="rating not yet on file",
+                 fitted_on=today - timedelta(days=200), today=today)
+
+    # Inspections: the orchard lift examined two months ago (a follow-up, remedied);
+    # the bough lever's six-monthly examination falls due a week from today.
+    if "orchard-lift" in rigs:
+        first = record_inspection(db, "orchard-lift", today - timedelta(days=60), scope="thorough examination, whole rig",
+                                  examiner=examiner.name, findings="brake pads 5 mm, strap and pins sound; two caster "
+                                  "bolts below torque", objection_to_use=False,
+                                  follow_up="re-torque the caster bolts to 45 N·m", today=today)
+        acknowledge_remedy(db, first, today - timedelta(days=59), person=head,
+                           remedy="four caster bolts re-torqued to 45 N·m, marked", today=today)
+    if "bough-lever" in rigs:
+        last = add_months(today + timedelta(days=7), -6)
+        record_inspection(db, "bough-lever", last, scope="thorough examination, whole rig", examiner=examiner.name,
+                          findings="band lining 3 mm, pivot bearing sound, welds without cracks",
+                          objection_to_use=False, today=today)
+        notes.append(f"care: bough-lever's thorough examination falls due {add_months(last, 6).isoformat()} "
+                     "(between the fourth and fifth performances)")
+
+    # Rehearsals: each rig with its first casts and crew; the understudy only on another cue.
+    rehearsal_day = today - timedelta(days=10)
+    for rig in sorted(rigs):
+        team = [(name, role) for role, names in d.CREW_BY_RIG.get(rig, {}).items() for name in names]
+        riders = sorted({n for cue in d.CUES if cue.rig == rig for n in cue.casts.get("first", ())})
+        team += [(n, "rider") for n in riders]
+        record_rehearsal(db, rig, rehearsal_day, team, note="full run of every cue, first casts", today=today)
+    if "orchard-lift" in rigs and "11" in cues:
+        crew = [(name, role) for role, names in d.CREW_BY_RIG["orchard-lift"].items() for name in names]
+        record_rehearsal(db, "orchard-lift", today - timedelta(days=40), crew + [(d.UNDERSTUDY, "rider")],
+                         cue_id=cues["11"], note="understudy walked through Harvest lowering", today=today)
+        notes.append(f"care: {d.UNDERSTUDY} has not rehearsed cue 5 with its team (blocked until recorded)")
+
+    # The past performance: pre-show check, briefing and area release all done.
+    past = demo_ids.past_performance
+    past_day = performance_day(db, past)[1]
+    for rig in loaded:
+        crew = d.CREW_BY_RIG.get(rig, {})
+        items, _ = checklist(db, rig)
+        for n, item in enumerate(items):
+            who = (crew.get(item.role or "") or (head,))[0]
+            text = item.expect or item.title
+            if item.load_trial:
+                text += ", with the test load of 80 kg" if rig == "orchard-lift" else ", with the test load of 60 kg"
+            answer_preshow(db, past, rig, item.key, text, person=who, at=moment(past_day, f"17:{n + 10:02d}"))
+    for rig in sorted(rigs):
+        bid = give_briefing(db, past, rig, given_by=head, note="cues, signals, stop procedure",
+                            at=moment(past_day, "18:30"))
+        for member in rig_team(db, past, rig):
+            if member.name != head:
+                confirm_briefing(db, bid, member.person_id, device="demo", at=moment(past_day, "18:40"))
+    release_area(db, past, person=head, note="stage clear, traps closed, gauze flown out",
+                 at=moment(past_day, "19:20"))
+    notes.append("care: past performance checked, briefed and released")
+
+    # The next performance's orchard-lift briefing, with one absentee.
+    if "orchard-lift" in rigs and len(demo_ids.performances) > 1:
+        nxt = demo_ids.performances[1]
+        # the absentee: a rider on exactly one orchard-lift cue that night, so one cue is blocked
+        per_cue = [cue_team(db, nxt, cue_id) for cue_id in
+                   (cid for num, cid in sorted(cues.items()) if cue_rig(db, cid) == "orchard-lift")]
+        counts: dict[str, int] = {}
+        for team in per_cue:
+            for m in team:
+                if m.role == "rider":
+                    counts[m.name] = counts.get(m.name, 0) + 1
+        absent = min((n for n, c in counts.items() if c == 1), default=None)
+        bid = give_briefing(db, nxt, "orchard-lift", given_by=head, note="new gauze position for Windfall")
+        for member in rig_team(db, nxt, "orchard-lift"):
+            if member.name not in (head, absent):
+                confirm_briefing(db, bid, member.person_id, device="demo")
+        notes.append(f"care: {absent} missed the orchard-lift briefing for the next performance (their cue is "
+                     "blocked until they confirm)")
+
+    # A safety objection, raised and resolved.
+    if "orchard-lift" in rigs:
+        spotter = d.CREW_BY_RIG["orchard-lift"]["spotter"][0]
+        oid = raise_objection(db, person=spotter, role="spotter", rig="orchard-lift", responsible=head,
+                              reason="handrail clamp slips under a hard push",
+                              at=moment(today - timedelta(days=5), "15:10"))
+        resolve_objection(db, oid, person=head, at=moment(today - timedelta(days=4), "11:00"),
+                          reason="clamp replaced by a bolted bracket; handrail held a 100 kg push")
+        notes.append("care: one safety objection raised and resolved")
+    return notes
