@@ -64,11 +64,13 @@ def part_figures(load: Mapping[str, Any], rig: Any = None) -> dict[str, float]:
         out["caster_line_n"] = max(reactions)
     if "rider_mass_kg" in load:
         out["riders_n"] = load["rider_mass_kg"] * g * float(load.get("dynamic_factor") or 1.0)
-    if rig is not None and getattr(rig, "loads", None) is not None:
-        tare = sum(ld.mass_kg for ld in rig.loads if ld.on == "platform") * g
-        if "riders_n" in out:
-            out["platform_n"] = out["riders_n"] + tare
-        out["counterweight_n"] = sum(ld.mass_kg for ld in rig.loads if ld.counterweight) * g
+    loads = getattr(rig, "loads", None) if rig is not None else None
+    if loads:
+        # A linkage names where each load is fixed ("platform"); a frame names nodes,
+        # so it gives no platform figure.
+        if "riders_n" in out and all(hasattr(ld, "on") for ld in loads):
+            out["platform_n"] = out["riders_n"] + sum(ld.mass_kg for ld in loads if ld.on == "platform") * g
+        out["counterweight_n"] = sum(ld.mass_kg for ld in loads if getattr(ld, "counterweight", False)) * g
     return out
 
 

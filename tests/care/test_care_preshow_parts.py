@@ -162,3 +162,18 @@ def test_part_figures_from_the_solver():
     # Empty: the counterweight (40 kg) outweighs the 20 kg platform: the brake holds 20 kg.
     empty = part_figures(solve_rig(rig, []).to_dict(), rig)
     assert empty["brake_n"] == pytest.approx(20 * g)
+
+
+def test_part_figures_of_a_frame_rig():
+    # The bough lever (kind "frame"): the brake's figure comes from its solver, the
+    # counterweight from its loads; a frame names no platform, so no platform figure.
+    from pathlib import Path
+
+    from showops.rig import load_rig
+
+    rig = load_rig(Path(__file__).resolve().parents[2] / "procedures" / "rigs" / "bough-lever.toml")
+    load = solve_rig(rig, [55]).to_dict()
+    figures = part_figures(load, rig)
+    assert figures["brake_n"] == pytest.approx(max(abs(load["brake_force_n"]), abs(load["empty_brake_force_n"])))
+    assert figures["counterweight_n"] == pytest.approx(115 * STANDARD_GRAVITY)  # the rig file's 115 kg box
+    assert "platform_n" not in figures and "pivot_n" not in figures
