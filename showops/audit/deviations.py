@@ -44,6 +44,15 @@ RULES: dict[str, tuple[str, str]] = {
                         "Safety Checklist's 'sign out'"),
 }
 
+#: The live runner's refusal codes (showops.live.runner) -> the class reported.
+REFUSAL_CODES: dict[str, str] = {
+    "blocked": "blocked_cue", "wrong_person": "wrong_role", "not_stage_manager": "wrong_role",
+    "untrained": "untrained", "out_of_order": "out_of_order", "needs": "out_of_order",
+    "no_standby": "out_of_order", "no_go": "out_of_order", "not_confirmed": "out_of_order",
+    "not_started": "out_of_order", "finished": "out_of_order", "held": "out_of_order",
+    "already_done": "out_of_order", "same_person": "same_person",
+}
+
 #: Refusal classes, read from a refused row's detail (``code`` if the runner gives one,
 #: else words in its ``reason``).
 REFUSAL_CLASSES: tuple[tuple[str, tuple[str, ...]], ...] = (
@@ -54,11 +63,14 @@ REFUSAL_CLASSES: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("same_person", ("same person", "second person", "acted")),
 )
 
+#: The events the live runner writes while a cue runs (showops.live.runner.CUE_EVENTS).
+CUE_EVENTS = frozenset(("cue_started", "standby", "go", "step_confirmed", "check_confirmed", "refused", "hold",
+                        "resume", "cue_completed"))
+
 #: Device and server times further apart than this mark a late record (this
 #: project's choice: a phone that was offline for a minute; no published source).
 LATE_AFTER_S = 60.0
 
-_PROGRESS = frozenset(("cue_started", "go", "step_confirmed", "check_confirmed", "resume"))
 
 
 @dataclass(frozen=True)
@@ -163,11 +175,11 @@ def _detail(row: Mapping) -> dict:
 def refusal_class(detail: Mapping) -> str:
     """Classify a refusal by its detail: the runner's ``code`` when it names one of
     :data:`REFUSAL_CLASSES`, else words of its ``reason``; ``other`` when neither does."""
-    code = str(detail.get("code") or detail.get("rule") or "").lower()
-    names = [name for name, _ in REFUSAL_CLASSES]
-    for name in names:
-        if code == name or code.replace("-", "_") == name:
-            return name
+    code = str(detail.get("code") or detail.get("rule") or "").lower().replace("-", "_")
+    if code in REFUSAL_CODES:
+        return REFUSAL_CODES[code]
+    if code in {name for name, _ in REFUSAL_CLASSES}:
+        return code
     reason = " ".join(str(detail.get(k, "")) for k in ("code", "rule", "reason", "message")).lower()
     for name, words in REFUSAL_CLASSES:
         if any(w in reason for w in words):
@@ -176,13 +188,17 @@ def refusal_class(detail: Mapping) -> str:
 
 
 class _CueRun:
-    __slots__ = ("started", "confirmed", "checked", "last_progress", "brake_off", "completed")
+    # ``due`` is the row at which the next step fell due (the cue's start, or the
+    # previous step's completion); a step's hold counts from its go, else from then,
+    # as the live runner counts it (showops.live.runner.StepState.started_at).
+    __slots__ = ("started", "confirmed", "checked", "due", "go", "brake_off", "completed")
 
     def __init__(self, started):
         self.started = started
         self.confirmed: dict[str, Mapping] = {}
         self.checked: dict[str, Mapping] = {}
-        self.last_progress = started
+        self.due = started
+        self.go: dict[str, Mapping] = {}
         self.brake_off = None
         self.completed = None
 
@@ -233,11 +249,12 @@ def scan(rows: Iterable[Mapping], procedures: Mapping[str, ProcedureFacts], *,
                           {"class": cls}))
             continue
         if event == "hold":
-            reason = _detail(row).get("reason", "")
+            detail = _detail(row)
+            reason = detail.get("note") or detail.get("reason") or ""
             add(Deviation("hold", pid, cid, row.get("step_key"), (rid,), at,
                           f"HOLD by {row.get('person_name') or '?'}" + (f": {reason}" if reason else ""), {}))
-        if cid is None:
-            continue
+        if cid is None or event not in CUE_EVENTS:
+            continue   # care and audit events name a cue too; they are not part of running it
         last_row[pid] = row
         if event == "cue_started":
             runs[(pid, cid)] = _CueRun(row)
@@ -247,22 +264,30 @@ def scan(rows: Iterable[Mapping], procedures: Mapping[str, ProcedureFacts], *,
             run = runs[(pid, cid)] = _CueRun(row)
         facts = procedures.get(row.get("procedure_version") or "")
         key = row.get("step_key")
-        if event == "step_confirmed":
+        if event == "go":
+            run.go.setdefault(key, row)
+        elif event == "step_confirmed":
             run.confirmed[key] = row
             step = facts.by_key.get(key) if facts else None
             if step is not None:
                 if step.hold_s is not None:
-                    elapsed = (parse_utc(at) - parse_utc(run.last_progress["at_utc"])).total_seconds()
+                    begin = run.go.get(key) or run.due
+                    elapsed = (parse_utc(at) - parse_utc(begin["at_utc"])).total_seconds()
                     if elapsed > step.hold_s:
-                        add(Deviation("past_hold_time", pid, cid, key, (run.last_progress["id"], rid), at,
+                        add(Deviation("past_hold_time", pid, cid, key, (begin["id"], rid), at,
                                       f"step {step.number} '{step.title}' took {elapsed:.0f} s; its hold is "
                                       f"{step.hold_s:.0f} s", {"elapsed_s": elapsed, "hold_s": step.hold_s}))
                 if "brake off" in step.sets:
                     run.brake_off = row
                 elif "brake on" in step.sets and run.brake_off is not None:
                     _brake_interval(run, row, facts, add)
+                if not step.check:
+                    run.due = row
+            elif not facts:
+                run.due = row
         elif event == "check_confirmed":
             run.checked[key] = row
+            run.due = row
             acted = run.confirmed.get(key)
             if acted is not None and acted.get("person_id") == row.get("person_id") \
                     and row.get("person_id") is not None:
@@ -271,6 +296,10 @@ def scan(rows: Iterable[Mapping], procedures: Mapping[str, ProcedureFacts], *,
                               f"{row.get('step_number') or key}", {}))
         elif event == "cue_completed":
             run.completed = row
+            unfinished = _detail(row).get("unfinished") if facts is None else None
+            if unfinished:
+                add(Deviation("unconfirmed_at_completion", pid, cid, None, (rid,), at,
+                              f"cue ended with {len(unfinished)} step(s) unconfirmed", {"missing": unfinished}))
             if facts is not None:
                 missing = [s for s in facts.steps if s.key not in run.confirmed
                            or (s.check and s.key not in run.checked)]
@@ -282,8 +311,6 @@ def scan(rows: Iterable[Mapping], procedures: Mapping[str, ProcedureFacts], *,
                                   {"missing": [s.key for s in missing]}))
             if run.brake_off is not None:
                 _brake_interval(run, row, facts, add, closed=False)
-        if event in _PROGRESS:
-            run.last_progress = row
 
     for (pid, cid), run in runs.items():
         if finished_set is not None and pid not in finished_set:

@@ -87,6 +87,9 @@ def test_a_clean_night_has_no_deviation():
     ("Oskar's training for lifters has expired", None, "untrained"),
     ("the cue is blocked: riders over the rated payload", None, "blocked_cue"),
     ("anything", "untrained", "untrained"),
+    ("anything", "wrong_person", "wrong_role"),      # the live runner's codes (showops.live.runner)
+    ("anything", "blocked", "blocked_cue"),
+    ("anything", "no_standby", "out_of_order"),
     ("the moon is wrong", None, "other"),
 ])
 def test_refused_attempt_is_found_and_classed(reason, code, cls):
@@ -222,3 +225,12 @@ def test_unknown_procedure_still_gets_the_rules_that_need_none():
     log = Log()
     log.clean_cue(self_check="Board/Brake on", skip={"Ride/Lower"})
     assert rules(scan(log.rows, {})) == ["self_check", "signoff_missing"]
+
+
+def test_audit_and_care_events_naming_a_cue_do_not_count_as_running_it():
+    log = Log()
+    log.clean_cue()
+    log.signoff()
+    log.add("incident_reported", "caller")          # an audit row after the sign-off, with the cue's id
+    log.add("inspection_recorded", "brake")
+    assert scan(log.rows, {"v1": PROC}) == []
