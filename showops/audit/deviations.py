@@ -19,6 +19,7 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
+from functools import cached_property
 from typing import Any, Iterable, Mapping, Sequence
 
 #: rule name -> (title, where the rule comes from)
@@ -101,7 +102,7 @@ class ProcedureFacts:
                       for s in procedure.main_steps)
         return cls(procedure.version, procedure.title, steps)
 
-    @property
+    @cached_property
     def by_key(self) -> dict[str, StepFacts]:
         return {s.key: s for s in self.steps}
 
@@ -153,10 +154,13 @@ class Deviation:
                 "at_utc": self.at_utc, "text": self.text, "detail": self.detail}
 
 
+_fromiso = datetime.fromisoformat
+
+
 def parse_utc(text: str) -> datetime:
-    """Read an ISO 8601 time from the log (UTC when it carries no offset)."""
-    out = datetime.fromisoformat(text.replace("Z", "+00:00"))
-    return out if out.tzinfo else out.replace(tzinfo=timezone.utc)
+    """Read an ISO 8601 time from the log (UTC when it carries no offset; ``Z`` allowed)."""
+    out = _fromiso(text)
+    return out if out.tzinfo is not None else out.replace(tzinfo=timezone.utc)
 
 
 def _detail(row: Mapping) -> dict:
@@ -229,7 +233,7 @@ def scan(rows: Iterable[Mapping], procedures: Mapping[str, ProcedureFacts], *,
         rid = row["id"]
         at = row["at_utc"]
         device_at = row.get("device_at")
-        if device_at:
+        if device_at and device_at != at:
             gap = (parse_utc(at) - parse_utc(device_at)).total_seconds()
             if abs(gap) > late_after_s:
                 word = "after" if gap > 0 else "before"
