@@ -15,7 +15,8 @@ from typing import Literal
 
 from showops.errors import UnitError
 
-Dimension = Literal["length", "mass", "force", "moment", "dimensionless", "time", "speed"]
+Dimension = Literal["length", "mass", "force", "moment", "dimensionless", "time", "speed",
+                    "pressure", "area", "second_moment", "linear_mass"]
 
 #: Standard acceleration of gravity, m/s², as defined by the 3rd General Conference
 #: on Weights and Measures (CGPM, 1901); also CODATA's exact value.
@@ -29,6 +30,10 @@ _SI_UNIT = {
     "dimensionless": "dimensionless",
     "time": "second",
     "speed": "meter / second",
+    "pressure": "pascal",
+    "area": "meter ** 2",
+    "second_moment": "meter ** 4",
+    "linear_mass": "kilogram / meter",
 }
 
 _IMPERIAL_UNIT = {
@@ -114,6 +119,10 @@ def _example(dimension: Dimension) -> str:
         "time": "s or min",
         "speed": "m/s",
         "dimensionless": "a plain number",
+        "pressure": "Pa, MPa, GPa or psi (Young's modulus)",
+        "area": "m^2, cm^2 or mm^2",
+        "second_moment": "m^4, cm^4 or mm^4",
+        "linear_mass": "kg/m or lb/ft",
     }[dimension]
 
 
@@ -125,6 +134,9 @@ def format_quantity(value_si: float, dimension: Dimension, *, imperial: bool = F
     """
     if imperial and dimension in _IMPERIAL_UNIT:
         symbol, factor = _IMPERIAL_UNIT[dimension]
-        return f"{value_si * factor:,.{digits}f} {symbol}"
-    symbol = _SI_SYMBOL.get(dimension, "")
+        value_si *= factor
+    else:
+        symbol = _SI_SYMBOL.get(dimension, "")
+    if round(value_si, digits) == 0:
+        value_si = 0.0  # never print "-0.0"
     return f"{value_si:,.{digits}f} {symbol}".rstrip()

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from typing import Sequence
 
+from showops.rig import frame_rig  # noqa: F401  (registers "frame")
 from showops.rig import linkage  # noqa: F401  (registers "parallel-linkage")
 from showops.rig.kinds import KINDS, RigResult
 from showops.rig.loader import load_rig, parse_rig

@@ -1,0 +1,77 @@
+"""Who may open what: every route's allowed roles, as a table.
+
+Two checks: (1) the table below is exactly what each view declares with
+``roles_required`` (so a changed rule shows up here); (2) every GET route without URL
+arguments, of every area, answers each role as its declaration says: allowed roles
+do not get 403, others get 403, and a visitor who is not signed in is sent to sign in
+(401 JSON under /api/). A route that declares no roles must be in PUBLIC.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from showops.store.users import ROLES
+from web_helpers import ROLE_USERS
+
+ALL = set(ROLES)
+SIGNED_IN = "signed in"  # any role; the view itself reads the user
+
+#: endpoint -> roles allowed (the web area's own routes; other areas test theirs too,
+#: and the generic test below covers every area's argument-free GET routes).
+EXPECTED = {
+    "home.index": SIGNED_IN,
+}
+
+#: Routes anyone may open without signing in.
+PUBLIC = {"static", "auth.sign_in", "auth.sign_in_pin", "auth.sign_out"}
+
+
+def declared(app, endpoint):
+    return getattr(app.view_functions[endpoint], "allowed_roles", None)
+
+
+@pytest.mark.parametrize("endpoint, roles", sorted(EXPECTED.items()))
+def test_declared_roles_match_the_table(app, endpoint, roles):
+    if roles == SIGNED_IN:
+        assert declared(app, endpoint) is None
+    else:
+        assert set(declared(app, endpoint)) == set(roles)
+
+
+def test_every_route_declares_its_roles_or_is_listed(app):
+    undeclared = [rule.endpoint for rule in app.url_map.iter_rules()
+                  if declared(app, rule.endpoint) is None
+                  and rule.endpoint not in PUBLIC and EXPECTED.get(rule.endpoint) != SIGNED_IN]
+    assert undeclared == []
+
+
+def get_routes(app):
+    return sorted({rule.rule: rule.endpoint for rule in app.url_map.iter_rules()
+                   if "GET" in rule.methods and not rule.arguments and rule.endpoint not in PUBLIC}.items())
+
+
+def sign_in_as(client, auth, role):
+    if role is not None:
+        response = auth.login(ROLE_USERS[role][0])
+        assert response.status_code == 302, response.get_data(as_text=True)
+
+
+@pytest.mark.parametrize("role", [None, *ROLES])
+def test_each_role_reaches_only_its_routes(app, client, auth, role_users, role):
+    sign_in_as(client, auth, role)
+    checked = 0
+    for path, endpoint in get_routes(app):
+        response = client.get(path)
+        allowed = declared(app, endpoint)
+        if role is None:
+            if path.startswith("/api/"):
+                assert response.status_code == 401, path
+            else:
+                assert response.status_code == 302 and response.location.startswith("/sign-in"), path
+        elif allowed is None or role in allowed:
+            assert response.status_code != 403, (path, role)
+        else:
+            assert response.status_code == 403, (path, role)
+        checked += 1
+    assert checked >= len([e for e in EXPECTED if e in app.view_functions])
