@@ -421,7 +421,10 @@ def run_demo_performance(db: sqlite_utils.Database, performance_id: int, *, now:
 
     loader = plans or default_plans
     plan = loader(db, performance_id)
-    if db.conn.execute("SELECT 1 FROM step_log WHERE performance_id = ? LIMIT 1", (performance_id,)).fetchone():
+    # Care records (pre-show check, briefing, release) may already be logged for the
+    # night; what must not exist yet is a cue run.
+    if db.conn.execute("SELECT 1 FROM step_log WHERE performance_id = ? AND event = 'cue_started' LIMIT 1",
+                       (performance_id,)).fetchone():
         raise ShowopsError(f"performance {performance_id} already has show log rows; the demo run is made once")
     rnd = random.Random(seed)
     start = now or plan.starts_at
@@ -433,7 +436,7 @@ def run_demo_performance(db: sqlite_utils.Database, performance_id: int, *, now:
         clock["t"] += timedelta(seconds=rnd.uniform(lo, hi))
         return clock["t"]
 
-    service = Live(plans=loader, clock=lambda: clock["t"], cache_ttl_s=0)
+    service = Live(plans=loader, clock=lambda: clock["t"], cache_ttl_s=3600.0)  # nothing recasts the night mid-run
     counts = {"rows": 0, "refused": 0, "holds": 0, "cues": 0, "overdue": 0}
     first_id = (db.conn.execute("SELECT max(id) FROM step_log").fetchone()[0] or 0)
 
