@@ -217,7 +217,7 @@ def main() -> None:
     probe = HttpDevice(server.port, timeout=1)
     for _ in range(400):
         try:
-            if probe.get("/api/openapi.json")[0] == 200:
+            if probe.get("/api/openapi.json")[0] == 401:  # up and answering (not signed in)
                 break
         except (Offline, ValueError):
             time.sleep(0.05)

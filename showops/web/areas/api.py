@@ -246,13 +246,9 @@ def log_verify():
                     "problem": {"row_id": problem.row_id, "kind": problem.kind, "message": problem.message}})
 
 
-@bp.route("/openapi.json", methods=["GET"])
+@route("/openapi.json", ("GET",), ALL_ROLES, "This document: every route under /api/ (OpenAPI 3.0)")
 def openapi():
-    """The OpenAPI 3.0 document of every route under /api/ (public: it holds no data)."""
     return jsonify(openapi_document(current_app))
-
-
-DOCS["openapi"] = ("This document", (), None)
 
 _ERROR = {"$ref": "#/components/schemas/Error"}
 
