@@ -421,8 +421,13 @@ def run_demo_performance(db: sqlite_utils.Database, performance_id: int, *, now:
 
     loader = plans or default_plans
     plan = loader(db, performance_id)
-    if db.conn.execute("SELECT 1 FROM step_log WHERE performance_id = ? LIMIT 1", (performance_id,)).fetchone():
-        raise ShowopsError(f"performance {performance_id} already has show log rows; the demo run is made once")
+    from showops.live.runner import CUE_EVENTS
+
+    names = CUE_EVENTS + ("signoff",)
+    if db.conn.execute(f"SELECT 1 FROM step_log WHERE performance_id = ? AND event IN "
+                       f"({', '.join('?' for _ in names)}) LIMIT 1", (performance_id, *names)).fetchone():
+        raise ShowopsError(f"performance {performance_id} has already been run in the show log; "
+                           f"the demo run is made once")
     rnd = random.Random(seed)
     start = now or plan.starts_at
     if start.tzinfo is None:
