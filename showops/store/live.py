@@ -438,7 +438,9 @@ def run_demo_performance(db: sqlite_utils.Database, performance_id: int, *, now:
         clock["t"] += timedelta(seconds=rnd.uniform(lo, hi))
         return clock["t"]
 
-    service = Live(plans=loader, clock=lambda: clock["t"], cache_ttl_s=0)
+    # One connection writes only log rows here, so the plan cannot change under the run
+    # (data_version stays put): keep it, and reload only where the service asks fresh.
+    service = Live(plans=loader, clock=lambda: clock["t"], cache_ttl_s=3600)
     counts = {"rows": 0, "refused": 0, "holds": 0, "cues": 0, "overdue": 0}
     first_id = (db.conn.execute("SELECT max(id) FROM step_log").fetchone()[0] or 0)
 

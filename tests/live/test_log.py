@@ -180,3 +180,17 @@ def test_the_writer_commits_batches_isolates_failures_and_keeps_order(tmp_path):
         writer.close()
     db = open_db(instance)
     assert verify_log(db) is None
+
+
+def test_the_writer_commits_with_full_sync_in_wal(tmp_path):
+    # "Acknowledged means durable": WAL with synchronous=FULL syncs the WAL on every
+    # commit (SQLite documentation, "PRAGMA synchronous": FULL = 2).
+    writer = LogWriter(tmp_path / "i")
+    try:
+        pragmas = writer.run(lambda d: (d.conn.execute("PRAGMA synchronous").fetchone()[0],
+                                        d.conn.execute("PRAGMA journal_mode").fetchone()[0]))
+        assert pragmas == (2, "wal")
+    finally:
+        writer.close()
+    with pytest.raises(Exception, match="closed"):
+        writer.submit(lambda d: None)
