@@ -164,7 +164,7 @@ def _act(kind: str, performance_id: int, cue_id: int):
                     device_at=_device_at(data), note=_text(data, "note"))
     service = live_service()
     outcome = service.act(_db(), performance_id, cue_id, action)
-    cue = service.cue_status(_db(), performance_id, cue_id, person_id=action.actor.person_id)
+    cue = service.cue_status(_db(), performance_id, cue_id, person_id=action.actor.person_id, state=outcome.state)
     return jsonify({"row": outcome.row, "rows": list(outcome.rows), "cue": cue})
 
 
