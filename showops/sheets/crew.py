@@ -15,7 +15,7 @@ from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, KeepTogether, PageBreak, Spacer, Table, TableStyle
 
 from showops import CAUTION
-from showops.sheets.common import (INK, Bold, TINT_CAUTION, Footer, FooterContext, LimitBar, QRCode, TickBox,
+from showops.sheets.common import (INK, PAPER, Bold, TINT_CAUTION, Footer, FooterContext, LimitBar, QRCode, TickBox,
                                    VERDICT_WORDS, banner, build_pdf, caution_block, content_width,
                                    format_figure, grid_table, limit_table, page_size, para, short_hash,
                                    signoff_table, text, verdict_paragraph, verdict_style)
@@ -464,7 +464,7 @@ def _checker_block(cue: CueNight) -> list:
             out.append(para(f"- {finding}", "body"))
     else:
         out.append(para(f"Procedure checker: no findings (rule set {rules}).", "body_bold"))
-    return out
+    return [KeepTogether(out)]
 
 
 def _cue_pages(plan: NightPlan, cue: CueNight, width: float, footer: Footer, url: str) -> list:
@@ -516,7 +516,28 @@ def _part(step, role: str) -> str:
     return " + ".join(parts)
 
 
+def _role_step_text(cue: CueNight, step, role: str) -> str:
+    """A step as the person in ``role`` needs it: what, when, the words, the caution, who else."""
+    parts = [f"<b>{text(step.title)}</b>"]
+    if step.needs:
+        parts.append(f"<i>Only when:</i> {text(', '.join(step.needs))}")
+    if step.say:
+        parts.append(f"<b>Say:</b> \"{text(step.say)}\"")
+    if step.reply:
+        parts.append(f"<b>Answer:</b> \"{text(step.reply)}\"")
+    if step.note:
+        parts.append(f"<b>CAUTION:</b> {text(step.note)}")
+    others = []
+    for label, other in (("does", step.by), ("go from", step.go), ("checks", step.check)):
+        if other and other != role:
+            others.append(f"{label} {_who(cue, other)}")
+    if others:
+        parts.append("<i>With:</i> " + text("; ".join(others)))
+    return "<br/>".join(parts)
+
+
 def _role_pages(plan: NightPlan, role: str, width: float, footer: Footer) -> list:
+    """Everything ``role`` does all night: one table, a heading row per cue, a row per step."""
     title = "Riders" if role == RIDER_ROLE else role.capitalize()
     story: list = [FooterContext(footer.state, _all_versions(plan)),
                    para(f"ROLE: {title.upper()}", "h1"),
@@ -527,35 +548,37 @@ def _role_pages(plan: NightPlan, role: str, width: float, footer: Footer) -> lis
     for i, cue in enumerate(plan.rig_cues, start=1):
         roster.append([Bold(cue.number), cue.name, people(cue, role), verdict_paragraph(cue.verdict)])
         extra += verdict_style(3, i, cue.verdict)
-    story.append(grid_table(roster, [16 * mm, 50 * mm, width - 16 * mm - 50 * mm - 32 * mm, 32 * mm], extra=extra))
+    story += [grid_table(roster, [16 * mm, 50 * mm, width - 16 * mm - 50 * mm - 32 * mm, 32 * mm], extra=extra),
+              Spacer(1, 4 * mm)]
+
+    rows: list[list[Any]] = [["No", "Your part", "Step and the words", "Done"]]
+    extra = [("ALIGN", (3, 1), (3, -1), "CENTER"), ("VALIGN", (3, 1), (3, -1), "MIDDLE")]
+
+    def heading(value: str, *, dark: bool = False, tint=TINT_CAUTION, style: str = "cell_bold") -> None:
+        r = len(rows)
+        rows.append([para(value, "cell_inverse" if dark else style), "", "", ""])
+        extra.extend([("SPAN", (0, r), (-1, r)), ("BACKGROUND", (0, r), (-1, r), INK if dark else tint),
+                      ("LINEABOVE", (0, r), (-1, r), 2.4, INK)])
+
     for cue in plan.rig_cues:
         main, stop = _steps_of(cue.procedure, role)
-        head = [CondPageBreak(50 * mm), para(f"Cue {cue.number} - {cue.name} ({cue.rig_name or cue.rig})", "h2")]
+        heading(f"CUE {cue.number} - {cue.name} ({cue.rig_name or cue.rig}). You: {people(cue, role)}. "
+                f"Riders: {', '.join(cue.riders) or 'none'}. Emergency signal: {cue.signal or 'NONE AGREED'}.")
         if cue.verdict == "blocked":
-            head.append(banner("DO NOT RUN", "blocked tonight: see the cue's page", width=width))
+            heading(f"DO NOT RUN cue {cue.number}: blocked tonight, see the cue's page", dark=True)
         elif cue.verdict == "caution":
-            head.append(para("CAUTION: see the cue's page before it runs.", "body_bold"))
-        head.append(para(f"You: {people(cue, role)}. Riders: {', '.join(cue.riders) or 'none'}. "
-                         f"Emergency signal: {cue.signal or 'NONE AGREED'}.", "body"))
-        story += head
-        if main:
-            rows: list[list[Any]] = [["No", "Your part", "Step and the words", "Done"]]
-            for step in main:
-                rows.append([Bold(step.number), Bold(_part(step, role)),
-                             para(_step_text(step) + "<br/>" + _who_text(cue, step), "cell", markup=True),
-                             TickBox()])
-            story.append(grid_table(rows, [10 * mm, 24 * mm, width - 10 * mm - 24 * mm - 16 * mm, 16 * mm],
-                                    extra=[("ALIGN", (3, 1), (3, -1), "CENTER"),
-                                           ("VALIGN", (3, 1), (3, -1), "MIDDLE")]))
-        else:
-            story.append(para(f"No step for the {role} on this cue.", "body"))
+            heading(f"CAUTION on cue {cue.number}: see the cue's page before it runs", tint=PAPER)
+        if not main and not stop:
+            rows.append(["", "", f"No step for the {role} on this cue.", ""])
+        for step in main:
+            rows.append([Bold(step.number), Bold(_part(step, role)),
+                         para(_role_step_text(cue, step, role), "cell", markup=True), TickBox()])
         if stop:
-            story.append(para("If anything goes wrong (stop procedure)", "h3"))
-            rows = [["No", "Your part", "Step and the words"]]
+            heading(f"Cue {cue.number}: if anything goes wrong (stop procedure)", tint=PAPER, style="cell_bold")
             for step in stop:
                 rows.append([Bold(step.number), Bold(_part(step, role)),
-                             para(_step_text(step), "cell", markup=True)])
-            story.append(grid_table(rows, [10 * mm, 24 * mm, width - 34 * mm]))
+                             para(_role_step_text(cue, step, role), "cell", markup=True), ""])
+    story.append(grid_table(rows, [10 * mm, 26 * mm, width - 10 * mm - 26 * mm - 16 * mm, 16 * mm], extra=extra))
     story += [Spacer(1, 4 * mm), caution_block(width)]
     return story
 

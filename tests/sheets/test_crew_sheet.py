@@ -199,15 +199,16 @@ def test_a_page_per_role_with_only_that_role_s_steps(plain):
         assert (step.title in brake) == involved, step.title
     # each rig cue appears on the role page, with who holds the role
     for cue in plan.rig_cues:
-        assert f"Cue {cue.number} - {cue.name}" in brake
+        assert f"CUE {cue.number} - {cue.name}" in brake
     assert "Margit Oduya" in brake
 
 
 def test_blocked_cue_is_marked_on_role_pages(heavy):
     plan, pages = heavy
     lifters = role_pages(pages, "lifters")
-    part = lifters.split("Cue 5 - Orchard rise 2")[1].split("Cue 7 -")[0]
-    assert "DO NOT RUN" in part
+    part = lifters.split("CUE 5 - Orchard rise 2")[1].split("CUE 7 -")[0]
+    assert "DO NOT RUN cue 5" in part
+    assert "DO NOT RUN" not in lifters.split("CUE 7 -")[1]
 
 
 def test_unstaffed_role_is_said_in_words():
@@ -277,3 +278,15 @@ def test_live_url_function_is_used_for_each_cue():
 
     render_crew_sheet(plan, live_url=target, printed_at=PRINTED_AT)
     assert seen == [c.number for c in plan.rig_cues]
+
+
+def test_shared_paragraph_caches_change_nothing():
+    """The parse and line-break caches (SheetParagraph) give the same bytes as a cold render."""
+    from showops.sheets.common import SheetParagraph
+
+    plan = make_plan(8, heavy=True, n_rig_cues=4)
+    SheetParagraph.clear_caches()
+    cold = render_crew_sheet(plan, printed_at=PRINTED_AT)
+    warm = render_crew_sheet(plan, printed_at=PRINTED_AT)
+    assert SheetParagraph._parsed and SheetParagraph._broken
+    assert cold == warm
