@@ -112,6 +112,7 @@ def styles() -> dict[str, ParagraphStyle]:
                                      leading=16, textColor=PAPER, alignment=TA_CENTER, spaceAfter=0),
         "caution": ParagraphStyle("caution", parent=base, fontSize=11, leading=13.5, spaceAfter=0),
     }
+    out["bullet"] = ParagraphStyle("bullet", parent=base, leftIndent=14, firstLineIndent=-10)
     out["banner_dark"] = ParagraphStyle("banner_dark", parent=out["banner"], textColor=INK)
     out["banner_sub_dark"] = ParagraphStyle("banner_sub_dark", parent=out["banner_sub"], textColor=INK)
     out["cell_inverse"] = ParagraphStyle("cell_inverse", parent=out["cell_bold"], textColor=PAPER)

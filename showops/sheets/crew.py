@@ -8,6 +8,7 @@ prints the riders' total (with the rig's allowance) against the rated payload.
 from __future__ import annotations
 
 import math
+import re
 from datetime import datetime, timezone
 from typing import Any, Iterable, Sequence
 
@@ -391,58 +392,80 @@ def _phase_tables(cue: CueNight, width: float) -> list:
     return out + stop
 
 
-def _procedure_cautions(cue: CueNight) -> list[str]:
-    """The procedure's free text under its title (its cautions), placeholders bound to tonight."""
-    procedure = cue.procedure
+_PLACEHOLDER = re.compile(r"\{\{(.*?)\}\}", re.S)
+_BOLD = re.compile(r"\*\*(.+?)\*\*", re.S)
+_ITALIC = re.compile(r"(?<![*\w])\*(?!\s)(.+?)(?<!\s)\*(?![*\w])", re.S)
+
+
+def procedure_intro(procedure) -> list[tuple[str, bool]]:
+    """Return the procedure's free text under its title (its purpose and cautions).
+
+    :returns: blocks of Markdown source, each with whether it is a list item; the
+        text stops at the first phase heading.
+    """
     if procedure is None or not getattr(procedure, "text", ""):
         return []
-    lines = procedure.text.splitlines()
-    out: list[str] = []
+    blocks: list[tuple[str, bool]] = []
+    current: list[str] = []
+    bullet = False
     started = False
-    for line in lines:
+
+    def flush():
+        if current:
+            blocks.append((" ".join(current), bullet))
+            current.clear()
+
+    for line in procedure.text.splitlines():
         stripped = line.strip()
-        if stripped.startswith("# "):
+        if stripped.startswith("# ") and not started:
             started = True
             continue
-        if stripped.startswith("##"):
-            if started:
-                break
+        if not started:
             continue
-        if started and stripped:
-            out.append(stripped)
-    if not out:
-        return []
-    paragraph = " ".join(out)
-    return [bind_placeholders(paragraph, cue)]
+        if stripped.startswith("##"):
+            break
+        if not stripped:
+            flush()
+            bullet = False
+        elif stripped[:2] in ("- ", "* ") and not stripped.startswith("**"):
+            flush()
+            bullet = True
+            current.append(stripped[2:].strip())
+        else:
+            current.append(stripped)
+    flush()
+    return blocks
 
 
-def bind_placeholders(template: str, cue: CueNight) -> str:
-    """Bind ``{{ ... }}`` placeholders in a procedure's free text to tonight's cue.
-
-    Uses a sandboxed Jinja2 environment (no access to Python internals) with the
-    names the procedure file documents: ``load``, ``riders``, ``crew`` (by role),
-    ``cue``. Anything that fails to bind is shown as written rather than guessed.
-    """
-    if "{{" not in template and "{%" not in template:
-        return template
-    from jinja2 import TemplateError
-    from jinja2.sandbox import SandboxedEnvironment
+def bind_placeholders(source: str, plan: NightPlan, cue: CueNight) -> str:
+    """Bind ``{{ ... }}`` in a procedure's free text to tonight's cue, as the procedure
+    package binds them for the web (``showops.procedure.render``: a sandbox, and a
+    visible "[not bound: ...]" marker for anything that cannot be bound)."""
+    if "{{" not in source:
+        return source
+    from showops.procedure.render import bind_placeholder, render_context
 
     crew: dict[str, list[str]] = {}
     for a in cue.crew:
         crew.setdefault(a.role, []).append(a.name)
-    env = SandboxedEnvironment(autoescape=False)
-    try:
-        return env.from_string(template).render(load=cue.load or {}, riders=list(cue.riders), crew=crew,
-                                                cue={"number": cue.number, "name": cue.name})
-    except (TemplateError, TypeError, ValueError, ArithmeticError):
-        return template
+    context = render_context(load=cue.load, riders=cue.riders, crew=crew,
+                             performance={"id": plan.performance_id, "starts_at": plan.starts_at.isoformat()},
+                             cue={"number": cue.number, "name": cue.name})
+    return _PLACEHOLDER.sub(lambda m: bind_placeholder(m.group(1), context)[0], source)
 
 
-def _cautions(cue: CueNight, width: float) -> list:
-    items: list = [para("Cautions", "h2")]
-    for line in _procedure_cautions(cue):
-        items.append(para(line, "body"))
+def markdown_inline(source: str) -> str:
+    """Return reportlab markup for Markdown text with ``**bold**`` and ``*italic*`` (escaped first)."""
+    out = text(source)
+    out = _BOLD.sub(r"<b>\1</b>", out)
+    return _ITALIC.sub(r"<i>\1</i>", out)
+
+
+def _cautions(plan: NightPlan, cue: CueNight, width: float) -> list:
+    items: list = [para("From the procedure: purpose and cautions", "h2")]
+    for source, bullet in procedure_intro(cue.procedure):
+        markup = markdown_inline(bind_placeholders(source, plan, cue))
+        items.append(para(("- " if bullet else "") + markup, "bullet" if bullet else "body", markup=True))
     for reason in cue.reasons:
         if reason.level == "caution":
             items.append(para(f"CAUTION: {reason.text}", "body_bold"))
@@ -490,7 +513,7 @@ def _cue_pages(plan: NightPlan, cue: CueNight, width: float, footer: Footer, url
         story.append(para("No load figures computed for this cue: DO NOT RUN it from this sheet.", "body_bold"))
     story += _checker_block(cue)
     story += _phase_tables(cue, width)
-    story += _cautions(cue, width)
+    story += _cautions(plan, cue, width)
     return story
 
 
@@ -584,4 +607,4 @@ def _role_pages(plan: NightPlan, role: str, width: float, footer: Footer) -> lis
 
 
 __all__ = ["LIVE_HOST", "LIVE_PORT", "live_url", "people", "render_crew_sheet", "roles_of", "step_table",
-           "bind_placeholders"]
+           "bind_placeholders", "procedure_intro", "markdown_inline"]

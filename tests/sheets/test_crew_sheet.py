@@ -290,3 +290,36 @@ def test_shared_paragraph_caches_change_nothing():
     warm = render_crew_sheet(plan, printed_at=PRINTED_AT)
     assert SheetParagraph._parsed and SheetParagraph._broken
     assert cold == warm
+
+
+def test_the_shipped_procedure_prints_whole(tmp_path):
+    """procedures/orchard-lift.md through the real parser: every step, its cautions bound to tonight."""
+    from dataclasses import replace
+
+    from sheet_plans import ROOT
+    from showops.procedure import load_procedure
+
+    procedure = load_procedure(ROOT / "procedures" / "orchard-lift.md")
+    plan = make_plan(9, n_rig_cues=1)
+    cue = replace(plan.rig_cues[0], procedure=procedure, procedure_title=procedure.title,
+                  procedure_version=procedure.version, signal=procedure.signal)
+    plan = replace(plan, cues=tuple(cue if c.cue_id == cue.cue_id else c for c in plan.cues))
+    pages = pages_of(render_crew_sheet(plan, printed_at=PRINTED_AT))
+    text = cue_pages(pages, cue.number)
+    for step in procedure.main_steps + procedure.stop_steps:
+        assert flat(step.title) in text, step.title
+    assert "{{" not in text and "[not bound" not in text
+    assert "Caller Halden Voss" in text            # {{ crew.caller }} bound
+    assert "lifters Fenn Castell, Joss Penhaligon" in text
+    assert "**" not in text                         # Markdown emphasis became bold, not stars
+    assert procedure.version[:10] in text
+
+
+@pytest.mark.parametrize("source, expected", [
+    ("**the brake stays on** always", "<b>the brake stays on</b> always"),
+    ("*The Glass Orchard*, Aldmouth", "<i>The Glass Orchard</i>, Aldmouth"),
+    ("load < 140 kg & 2 * 3", "load &lt; 140 kg &amp; 2 * 3"),
+])
+def test_markdown_inline(source, expected):
+    from showops.sheets.crew import markdown_inline
+    assert markdown_inline(source) == expected
