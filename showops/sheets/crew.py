@@ -462,16 +462,16 @@ def markdown_inline(source: str) -> str:
 
 
 def _cautions(plan: NightPlan, cue: CueNight, width: float) -> list:
-    items: list = [para("From the procedure: purpose and cautions", "h2")]
+    """The procedure's purpose and cautions and tonight's cautions: read before the steps."""
+    items: list = [para("Read before the cue: purpose and cautions", "h2")]
     for source, bullet in procedure_intro(cue.procedure):
         markup = markdown_inline(bind_placeholders(source, plan, cue))
         items.append(para(("- " if bullet else "") + markup, "bullet" if bullet else "body", markup=True))
     for reason in cue.reasons:
         if reason.level == "caution":
-            items.append(para(f"CAUTION: {reason.text}", "body_bold"))
-    for note in (cue.load or {}).get("notes", ()):
-        items.append(para(f"From the load check: {note}", "body"))
-    items += [Spacer(1, 2 * mm), caution_block(width)]
+            items.append(para(f"CAUTION tonight: {reason.text}", "body_bold"))
+    if len(items) == 1:
+        return []
     return [CondPageBreak(45 * mm), *items]
 
 
@@ -509,11 +509,14 @@ def _cue_pages(plan: NightPlan, cue: CueNight, width: float, footer: Footer, url
                          "least margin and any that is not OK.")
         notes.append("The heavy upright line on each bar is the limit.")
         story.append(para(" ".join(notes), "small"))
+        for note in load.get("notes", ()):
+            story.append(para(f"From the load check: {note}", "body_bold"))
     else:
         story.append(para("No load figures computed for this cue: DO NOT RUN it from this sheet.", "body_bold"))
+    story += [Spacer(1, 2 * mm), caution_block(width)]
     story += _checker_block(cue)
-    story += _phase_tables(cue, width)
     story += _cautions(plan, cue, width)
+    story += _phase_tables(cue, width)
     return story
 
 
