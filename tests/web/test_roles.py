@@ -27,6 +27,10 @@ EXPECTED = {
     "admin.set_pin": {"admin"},
     "admin.link_person": {"admin"},
     "admin.set_active": {"admin"},
+    "night.tonight": {"admin", "stage_manager", "crew", "viewer"},
+    "night.performances": {"admin", "stage_manager", "viewer"},
+    "night.running_order": {"admin", "stage_manager", "viewer"},
+    "night.crew_screen": {"crew"},
 }
 
 #: Routes anyone may open without signing in.
