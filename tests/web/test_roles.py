@@ -31,6 +31,9 @@ EXPECTED = {
     "night.performances": {"admin", "stage_manager", "viewer"},
     "night.running_order": {"admin", "stage_manager", "viewer"},
     "night.crew_screen": {"crew"},
+    "rigs.index": {"admin", "stage_manager", "viewer"},
+    "rigs.show": {"admin", "stage_manager", "viewer"},
+    "rigs.change_limits": {"admin"},
 }
 
 #: Routes anyone may open without signing in.
@@ -94,6 +97,7 @@ POSTS = [
     ("/admin/users/ines/pin", {"admin"}),
     ("/admin/users/ines/person", {"admin"}),
     ("/admin/users/ines/active", {"admin"}),
+    ("/rigs/orchard-lift/limits", {"admin"}),
 ]
 
 
