@@ -37,7 +37,7 @@ EXPECTED = {
 }
 
 #: Routes anyone may open without signing in.
-PUBLIC = {"static", "auth.sign_in", "auth.sign_in_pin", "auth.sign_out"}
+PUBLIC = {"static", "auth.sign_in", "auth.sign_in_pin", "auth.sign_out", "api.openapi"}
 
 
 def declared(app, endpoint):
