@@ -61,6 +61,8 @@ def demo(instance: Path, force: bool) -> None:
             db.conn.close()
     db = open_db(instance)
     ids = store.install_demo(db, date.today())
+    seed_care = store._care_hook(db, "seed_demo_care")  # rig care's records (examinations, checks ...)
+    care_lines = seed_care(db, ids, date.today()) if seed_care is not None else []
     plans = store.night_plans(db)
     db.conn.close()
 
@@ -77,6 +79,8 @@ def demo(instance: Path, force: bool) -> None:
         click.echo("    " + _summary_line(plan))
     for line in ids.skipped:
         click.echo(f"  not installed: {line}")
+    for line in care_lines:
+        click.echo(f"  {line}")
     heavy = next(p for p in plans if p.performance_id == ids.heavy_performance)
     click.echo("")
     click.echo("Next:")

@@ -1225,3 +1225,23 @@ def seed_demo_care(db: sqlite_utils.Database, demo_ids: Any, today: date, *, fol
                           reason="clamp replaced by a bolted bracket; handrail held a 100 kg push")
         notes.append("care: one safety objection raised and resolved")
     return notes
+
+
+def performance_readiness(db: sqlite_utils.Database, performance_id: int, *,
+                          as_of: date | None = None) -> list[Reason]:
+    """Return the readiness reasons of every rig cue of a performance, each once, blocked
+    first: the lines a crew sheet's cover lists under "Rig readiness".
+
+    :raises NotFound: for a performance that does not exist.
+    """
+    snap = _snapshot(db)
+    if performance_id not in snap.perf_days:
+        raise NotFound(f"performance: performance {performance_id} does not exist")
+    out: list[Reason] = []
+    for (cue_id,) in db.execute("SELECT c.id FROM cue c JOIN performance p ON p.production_id = c.production_id "
+                                "WHERE p.id = ? AND c.rig_slug IS NOT NULL ORDER BY c.position, c.id",
+                                [performance_id]).fetchall():
+        for reason in readiness_reasons(db, performance_id, cue_id, as_of=as_of):
+            if reason not in out:
+                out.append(reason)
+    return sorted(out, key=lambda r: r.level != "blocked")
