@@ -489,12 +489,42 @@ def _finished(db, now: datetime) -> set[int]:
     return done
 
 
+#: (database file, performances) -> (last log id, finished nights, deviations). The log
+#: is append-only and procedure versions never change, so a scan stays right until a
+#: new row is appended or another night ends; the web pages reuse it between requests.
+_SCAN_CACHE: dict[tuple, tuple] = {}
+_SCAN_CACHE_MAX = 16
+
+
+def _db_file(db) -> str:
+    row = db.execute("PRAGMA database_list").fetchone()
+    return row[2] if row else ""
+
+
 def find_deviations(db: sqlite_utils.Database, performance_ids: Iterable[int] | None = None, *,
                     now: datetime | None = None, rows: list[dict] | None = None) -> list[Deviation]:
-    """Scan the log (or the given performances' part of it) with every rule."""
-    rows = log_rows(db, performance_ids) if rows is None else rows
+    """Scan the log (or the given performances' part of it) with every rule.
+
+    A scan of the stored log is cached per database and set of performances until
+    the log grows or another night is over.
+    """
+    finished = frozenset(_finished(db, _now(now)))
+    if rows is not None:
+        facts = procedure_facts(db, {r["procedure_version"] for r in rows})
+        return scan(rows, facts, finished=finished)
+    ids = None if performance_ids is None else tuple(sorted(set(int(i) for i in performance_ids)))
+    key = (_db_file(db), ids)
+    last_id = db.execute("SELECT coalesce(max(id), 0) FROM step_log").fetchone()[0]
+    hit = _SCAN_CACHE.get(key)
+    if hit is not None and hit[0] == last_id and hit[1] == finished:
+        return list(hit[2])
+    rows = log_rows(db, ids)
     facts = procedure_facts(db, {r["procedure_version"] for r in rows})
-    return scan(rows, facts, finished=_finished(db, _now(now)))
+    found = scan(rows, facts, finished=finished)
+    if len(_SCAN_CACHE) >= _SCAN_CACHE_MAX:
+        _SCAN_CACHE.pop(next(iter(_SCAN_CACHE)))
+    _SCAN_CACHE[key] = (last_id, finished, tuple(found))
+    return found
 
 
 def find_deviation(db: sqlite_utils.Database, key: str, *, now: datetime | None = None) -> Deviation:
