@@ -92,3 +92,17 @@ class AuthActions:
 @pytest.fixture
 def auth(client):
     return AuthActions(client)
+
+
+@pytest.fixture
+def demo(db):
+    """The invented demo (show store) with its sign-ins; returns (DemoIds, users made)."""
+    from datetime import date
+
+    from showops.show import demo_data
+    from showops.store.show import install_demo
+
+    ids = install_demo(db, date.today())
+    made = store_users.install_demo_users(db, stage_manager=demo_data.STAGE_MANAGER,
+                                          crew=[c.name for c in demo_data.CREW])
+    return ids, made

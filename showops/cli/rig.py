@@ -108,3 +108,31 @@ def render_result(result, *, imperial: bool = False) -> str:
     for note in d.get("notes", []):
         lines.append(f"  * {note}")
     return "\n".join(lines)
+
+
+@rig.command("advise")
+@click.argument("rig_file", type=click.Path(path_type=Path))
+@click.option("--riders", required=True, help="Each rider's mass, comma-separated (kg unless a unit is given).")
+@click.option("--json", "as_json", is_flag=True, help="Print the advice as JSON.")
+def advise(rig_file: Path, riders: str, as_json: bool) -> None:
+    """Say what to change (counterweight plates, handle position, lifters) so every
+    limit of RIG_FILE holds for these riders, or that nothing does.
+
+    \b
+    Example:
+      showops rig advise procedures/rigs/orchard-lift.toml --riders 58,64
+    """
+    from showops.rig.advisor import advise_balance
+
+    model = load_rig(rig_file)
+    advice = advise_balance(model, parse_riders(riders))
+    if as_json:
+        out = advice.to_dict()
+        out["caution"] = CAUTION
+        click.echo(json.dumps(out, indent=2))
+        return
+    click.echo(advice.text)
+    if advice.result is not None and advice.changed:
+        for reason in advice.result.reasons:
+            click.echo(f"  - [{reason.level}] {reason.text}")
+    echo_caution()

@@ -25,8 +25,25 @@ STATE_VALUES: dict[str, tuple[str, ...]] = {
 #: Where the simulation starts unless a ``Start:`` header says otherwise.
 REST_STATE: dict[str, str] = {"brake": "on", "platform": "down", "rider": "off", "strap": "open"}
 
-FieldName = Literal["by", "go", "check", "say", "reply", "needs", "sets", "hold", "why", "note"]
-STEP_FIELDS: tuple[str, ...] = ("by", "go", "check", "say", "reply", "needs", "sets", "hold", "why", "note")
+FieldName = Literal["by", "go", "check", "say", "reply", "needs", "sets", "hold", "why", "note", "caution"]
+#: ``caution`` was added after the first contract: a warning read out *before* the
+#: step's action (DOE-STD-1029 puts cautions before the step they govern).
+STEP_FIELDS: tuple[str, ...] = ("by", "go", "check", "say", "reply", "needs", "sets", "hold", "why", "note",
+                                "caution")
+
+#: The header lines a procedure may start with (``Key: value``, before the first heading).
+HEADER_FIELDS: tuple[str, ...] = ("title", "rig", "roles", "signal", "start", "author", "reviewed")
+
+
+@dataclass(frozen=True)
+class Problem:
+    """Something the parser could not read as written (an unknown field, a field with
+    no value, a step outside a phase ...). The checker reports each one (rule 1)."""
+
+    line: int
+    message: str
+    found: str = ""
+    step: str | None = None
 
 
 @dataclass(frozen=True)
@@ -52,6 +69,7 @@ class Step:
     hold_s: float | None = None
     why: str | None = None
     note: str | None = None
+    caution: str | None = None
     #: field name -> line it was written on, for findings
     field_lines: dict[str, int] = field(default_factory=dict, compare=False, hash=False)
 
@@ -84,6 +102,10 @@ class Procedure:
     text: str                     # the file's text, as read
     source: str = "<procedure>"
     headers: dict[str, str] = field(default_factory=dict)
+    #: header name (lower case) -> its line, for findings
+    header_lines: dict[str, int] = field(default_factory=dict, compare=False, hash=False)
+    #: what the parser could not read (reported by the checker's first rule)
+    problems: tuple[Problem, ...] = field(default=(), compare=False, hash=False)
 
     @property
     def version(self) -> str:

@@ -213,6 +213,10 @@ class LogWriter:
         #: batches committed and units run, for the bench
         self.batches = 0
         self.units = 0
+        #: ``PRAGMA data_version`` as the writer's connection last saw it: it changes only
+        #: when *another* connection commits (SQLite documentation, "PRAGMA data_version"),
+        #: never for the log rows the writer appends, so caches of other tables can key on it.
+        self.outside_version = 0
         self._thread = threading.Thread(target=self._run, name="showops-log-writer", daemon=True)
         self._thread.start()
         self._ready.wait()
@@ -255,7 +259,11 @@ class LogWriter:
         conn = self._db.conn
         stop = False
         while not stop:
-            item = self._queue.get()
+            try:
+                item = self._queue.get(timeout=0.25)
+            except queue.Empty:
+                self.outside_version = conn.execute("PRAGMA data_version").fetchone()[0]
+                continue
             batch = []
             while True:
                 if item is None:
@@ -270,6 +278,7 @@ class LogWriter:
                     break
             if batch:
                 self._commit(conn, batch)
+                self.outside_version = conn.execute("PRAGMA data_version").fetchone()[0]
         conn.close()
 
     def _commit(self, conn: sqlite3.Connection, batch: list) -> None:
