@@ -633,3 +633,48 @@ def write_csv(season: SeasonAudit, folder: str | Path) -> list[Path]:
             writer.writerows(rows)
         paths.append(path)
     return paths
+
+
+# -- the demo ---------------------------------------------------------------------------
+
+def seed_demo_audit(db: sqlite_utils.Database, demo_ids: Any, *, now: datetime | None = None) -> list[str]:
+    """Promote one deviation of the demo's past performance to a near miss, classify
+    it, record its investigation and one corrective action, and add a show-report note.
+
+    The deviation is the one the live runner's demo run made on purpose (a step
+    confirmed past its ``hold``, else the HOLD, else the first one found).
+
+    :returns: lines for the demo's printout.
+    :raises Refused: when the past performance has no deviation to promote.
+    """
+    from datetime import timedelta
+
+    from showops.show import demo_data
+
+    pid = demo_ids.past_performance
+    devs = find_deviations(db, [pid], now=now)
+    if not devs:
+        raise Refused(f"the demo's past performance {pid} has no deviation to promote")
+    rank = {"past_hold_time": 0, "hold": 1, "refused_attempt": 2}
+    chosen = min(devs, key=lambda d: (rank.get(d.rule, 9), d.row_ids))
+    sm = Actor(demo_data.STAGE_MANAGER, "stage_manager", person_id=getattr(demo_ids, "stage_manager", None))
+    record_id = promote(db, sm, chosen, now=now)
+    classify(db, sm, record_id, kind="near_miss", likelihood=3, severity_actual="E", severity_potential="C",
+             now=now)
+    investigate(db, sm, record_id, {
+        "immediate_causes": "the step ran past the time the procedure allows for it",
+        "underlying_causes": "the cue was started before the lifters had both hands on the rear bar",
+        "root_causes": "the procedure has no call that confirms the lifters are ready before the go",
+        "contributing_factors": "dark wing; a new lifter on the cue that night",
+        "similar_events": "none found in the log of earlier nights",
+        "risk_review": "the rig's lift procedure risk assessment reviewed; no new hazard",
+    }, now=now)
+    occurred = datetime.fromisoformat(chosen.at_utc)
+    action_id = add_action(db, sm, record_id, {
+        "description": "Add a 'lifters ready' reply before the go on the lift procedure and brief the crew",
+        "owner": "Head of stage", "due": (occurred + timedelta(days=7)).date().isoformat(),
+        "control": "administrative"}, now=now)
+    add_note(db, sm, pid, f"{chosen.title}: {chosen.text}. Recorded as near miss #{record_id}.", now=now)
+    return [f"promoted the past performance's deviation '{chosen.title}' ({chosen.key}) to near miss "
+            f"#{record_id} (3C tolerable), with corrective action {action_id} due "
+            f"{(occurred + timedelta(days=7)).date().isoformat()}"]
