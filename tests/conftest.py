@@ -30,9 +30,11 @@ def instance(tmp_path):
 @pytest.fixture
 def app(instance):
     from showops.web import close_stores, create_app
+    from showops.web.areas.api import close_live
 
     application = create_app({"INSTANCE": str(instance), "TESTING": True})
     yield application
+    close_live(application)
     close_stores(application)
 
 
@@ -92,3 +94,17 @@ class AuthActions:
 @pytest.fixture
 def auth(client):
     return AuthActions(client)
+
+
+@pytest.fixture
+def demo(db):
+    """The invented demo (show store) with its sign-ins; returns (DemoIds, users made)."""
+    from datetime import date
+
+    from showops.show import demo_data
+    from showops.store.show import install_demo
+
+    ids = install_demo(db, date.today())
+    made = store_users.install_demo_users(db, stage_manager=demo_data.STAGE_MANAGER,
+                                          crew=[c.name for c in demo_data.CREW])
+    return ids, made

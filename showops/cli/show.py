@@ -60,7 +60,10 @@ def demo(instance: Path, force: bool) -> None:
         else:
             db.conn.close()
     db = open_db(instance)
-    ids = store.install_demo(db, date.today())
+    from showops.store.demo import build_demo
+
+    report = build_demo(db, date.today())
+    ids = report.ids
     plans = store.night_plans(db)
     db.conn.close()
 
@@ -77,6 +80,13 @@ def demo(instance: Path, force: bool) -> None:
         click.echo("    " + _summary_line(plan))
     for line in ids.skipped:
         click.echo(f"  not installed: {line}")
+    for line in report.notes:
+        click.echo(f"  {line}")
+    if report.users:
+        click.echo("  Sign-ins (demo only; change them before real use):")
+        for user in report.users:
+            pin = f", PIN {user['pin']}" if user.get("pin") else ""
+            click.echo(f"    {user['username']:<10} {user['role']:<14} {user['name']}{pin}")
     heavy = next(p for p in plans if p.performance_id == ids.heavy_performance)
     click.echo("")
     click.echo("Next:")
@@ -211,6 +221,66 @@ def _read_text(path: Path) -> str:
         return data.decode("utf-8")
     except UnicodeDecodeError:
         raise ShowopsError(f"{path}: not UTF-8 text (save the spreadsheet as CSV UTF-8)") from None
+
+
+@import_group.command("cues")
+@click.argument("csv_file", type=click.Path(dir_okay=False, path_type=Path))
+@instance_option
+@click.option("--production", "production_id", type=int, default=None, help="Production id (default: the only one).")
+def import_cues(csv_file: Path, instance: Path, production_id: int | None) -> None:
+    """Append cues to the cue list from CSV_FILE: columns number, name, and optionally
+    rig and procedure (slugs). Nothing is imported when any row is bad.
+
+    \b
+    Example:
+      showops import cues cues.csv
+    """
+    text = _read_text(csv_file)
+    db = open_db(instance, create=False)
+    report = store.import_cues_csv(db, text, production_id or _only(db, "production"), source=str(csv_file))
+    click.echo(f"Imported {len(report.added)} cues from {csv_file}: {', '.join(report.added)}")
+
+
+@import_group.command("rig")
+@click.argument("rig_file", type=click.Path(dir_okay=False, path_type=Path))
+@instance_option
+@click.option("--slug", default=None, help="The rig's slug (default: the file name without .toml).")
+def import_rig(rig_file: Path, instance: Path, slug: str | None) -> None:
+    """Store RIG_FILE's text as the rig's current version (a changed file is a new version;
+    every verdict from then on uses it).
+
+    \b
+    Example:
+      showops import rig procedures/rigs/orchard-lift.toml
+    """
+    text = _read_text(rig_file)
+    db = open_db(instance)
+    with store.transaction(db):
+        version = store.add_rig(db, slug or rig_file.stem, text, source=str(rig_file))
+    click.echo(f"Rig {slug or rig_file.stem}: version {version[:12]} on record.")
+
+
+@import_group.command("procedure")
+@click.argument("procedure_file", type=click.Path(dir_okay=False, path_type=Path))
+@instance_option
+@click.option("--slug", default=None, help="The procedure's slug (default: the file name without .md).")
+def import_procedure(procedure_file: Path, instance: Path, slug: str | None) -> None:
+    """Store PROCEDURE_FILE's text as the procedure's current version; its ``Rig:``
+    header names the rig, which must be on record. Cues on that rig with no procedure
+    yet are given this one.
+
+    \b
+    Example:
+      showops import procedure procedures/orchard-lift.md
+    """
+    text = _read_text(procedure_file)
+    db = open_db(instance)
+    rig = store._header(text, "Rig") or None
+    with store.transaction(db):
+        version = store.add_procedure(db, slug or procedure_file.stem, text, rig=rig)
+        linked = store.link_procedure(db, slug or procedure_file.stem, rig) if rig else 0
+    click.echo(f"Procedure {slug or procedure_file.stem} (rig {rig or 'none named'}): version {version[:12]} on record"
+               + (f"; linked to {linked} cue{'s' if linked != 1 else ''} that had none." if linked else "."))
 
 
 @main.group("export")

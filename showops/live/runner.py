@@ -30,6 +30,7 @@ order with a challenge and a response: FAA AC 120-71 (standard operating procedu
 from __future__ import annotations
 
 import json
+from functools import lru_cache
 from dataclasses import dataclass, field, replace
 from datetime import datetime, timezone
 from typing import Any, Iterable, Literal, Mapping, Sequence
@@ -43,7 +44,7 @@ CueStatus = Literal["waiting", "running", "held", "complete", "ended"]
 StepStatus = Literal["waiting", "due", "confirmed", "checked"]
 
 #: The app role that may start, resume and end cues and sign off the night.
-STAGE_MANAGER = "stage manager"
+STAGE_MANAGER = "stage_manager"
 
 #: Roles held by performers, who carry no screen on stage: their answer (the
 #: ``reply`` of the step) is heard and confirmed by the person in the other role,
@@ -164,10 +165,18 @@ class CueState:
     @property
     def current(self) -> StepState | None:
         """The first step not yet done (confirmed and, if it has one, checked)."""
-        return next((s for s in self.steps if not s.done), None)
+        # Steps are done in order, so the first not done only moves forward: keep a cursor.
+        cursor = self.__dict__.get("_cursor", 0)
+        while cursor < len(self.steps) and self.steps[cursor].done:
+            cursor += 1
+        self.__dict__["_cursor"] = cursor
+        return self.steps[cursor] if cursor < len(self.steps) else None
 
     def find(self, key: str | None) -> StepState | None:
-        return next((s for s in self.steps if s.step.key == key), None)
+        index = self.__dict__.get("_by_key")
+        if index is None or len(index) != len(self.steps):
+            index = self.__dict__["_by_key"] = {s.step.key: s for s in reversed(self.steps)}
+        return index.get(key) if key is not None else None
 
 
 @dataclass(frozen=True)
@@ -323,6 +332,11 @@ def _row(state: CueState, action: Action, now: datetime, event: str, step: StepS
     }
 
 
+def _cap(text: str) -> str:
+    """Capitalise the first letter only (``str.capitalize`` would lower the cue's name)."""
+    return text[:1].upper() + text[1:]
+
+
 def _clock(at: datetime | None) -> str:
     return at.astimezone(timezone.utc).strftime("%H:%M:%S") if at else "?"
 
@@ -335,13 +349,13 @@ def _gate(state: CueState, action: Action) -> Refusal | None:
     """The refusals shared by every step action: not running, on HOLD, finished."""
     label = state.setup.label
     if state.status == "held":
-        return Refusal("held", f"{label.capitalize()} is on HOLD (called by {state.held_by} at "
+        return Refusal("held", f"{_cap(label)} is on HOLD (called by {state.held_by} at "
                                f"{_clock(state.held_at)} UTC): wait for the stage manager to resume.")
     if state.status == "waiting":
-        return Refusal("not_started", f"{label.capitalize()} has not been started: "
+        return Refusal("not_started", f"{_cap(label)} has not been started: "
                                       f"the stage manager starts it first.")
     if state.status in ("complete", "ended"):
-        return Refusal("finished", f"{label.capitalize()} is already finished ({state.status}).")
+        return Refusal("finished", f"{_cap(label)} is already finished ({state.status}).")
     return None
 
 
@@ -395,20 +409,21 @@ def _start(state: CueState, action: Action, now: datetime):
     if state.status == "held":
         return _gate(state, action)
     if state.status != "waiting":
-        return Refusal("already_started", f"{setup.label.capitalize()} was already started at "
+        return Refusal("already_started", f"{_cap(setup.label)} was already started at "
                                           f"{_clock(state.started_at)} UTC.")
     if not (actor.is_stage_manager or _role_of(state, actor, "caller")):
         return Refusal("not_stage_manager", f"Only the stage manager or tonight's caller starts "
                                             f"{setup.label}.")
     if setup.verdict == "blocked":
-        why = "; ".join(r.text for r in setup.reasons) or "its verdict is blocked"
-        fixes = "; ".join(setup.fixes) or "; ".join(r.fix for r in setup.reasons if r.fix)
-        text = f"{setup.label.capitalize()} is blocked tonight and cannot be started: {why}."
+        blocking = [r for r in setup.reasons if r.level == "blocked"]
+        why = "; ".join(r.text for r in blocking) or "its verdict is blocked"
+        fixes = "; ".join(setup.fixes) or "; ".join(r.fix for r in blocking if r.fix)
+        text = f"{_cap(setup.label)} is blocked tonight and cannot be started: {why}."
         if fixes:
             text += f" What would clear it: {fixes}."
         return Refusal("blocked", text)
     if not setup.steps:
-        return Refusal("no_steps", f"{setup.label.capitalize()} has no procedure steps to run.")
+        return Refusal("no_steps", f"{_cap(setup.label)} has no procedure steps to run.")
     detail = {"verdict": setup.verdict, "steps": len(setup.steps),
               "crew": [{"role": c.role, "person_id": c.person_id, "name": c.name} for c in setup.crew]}
     return [_row(state, action, now, "cue_started", None, detail, role=_role_of(state, actor, "caller"))]
@@ -541,7 +556,7 @@ def _completion(state: CueState, action: Action, now: datetime, step: StepState)
 
 def _hold(state: CueState, action: Action, now: datetime):
     if state.status in ("complete", "ended"):
-        return Refusal("finished", f"{state.setup.label.capitalize()} is already finished: nothing to hold.")
+        return Refusal("finished", f"{_cap(state.setup.label)} is already finished: nothing to hold.")
     current = state.current
     detail = {"note": action.note} if action.note else {}
     if state.status == "held":
@@ -551,7 +566,7 @@ def _hold(state: CueState, action: Action, now: datetime):
 
 def _resume(state: CueState, action: Action, now: datetime):
     if state.status != "held":
-        return Refusal("not_held", f"{state.setup.label.capitalize()} is not on HOLD.")
+        return Refusal("not_held", f"{_cap(state.setup.label)} is not on HOLD.")
     if not action.actor.is_stage_manager:
         return Refusal("not_stage_manager", f"Only the stage manager resumes {state.setup.label} after a "
                                             f"HOLD; {action.actor.name} cannot.")
@@ -561,7 +576,7 @@ def _resume(state: CueState, action: Action, now: datetime):
 
 def _end(state: CueState, action: Action, now: datetime):
     if state.status in ("waiting", "complete", "ended"):
-        return Refusal("not_running", f"{state.setup.label.capitalize()} is not running: nothing to end.")
+        return Refusal("not_running", f"{_cap(state.setup.label)} is not running: nothing to end.")
     if not action.actor.is_stage_manager:
         return Refusal("not_stage_manager", f"Only the stage manager ends {state.setup.label} early.")
     unfinished = [s.step.key for s in state.steps if not s.done]
@@ -575,6 +590,7 @@ def _who(pair: tuple[int | None, str] | None) -> dict | None:
     return {"person_id": pair[0], "name": pair[1]} if pair else None
 
 
+@lru_cache(maxsize=8192)
 def _iso(at: datetime | None) -> str | None:
     return at.astimezone(timezone.utc).isoformat(timespec="milliseconds") if at else None
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any, Iterable
+from typing import Any, Iterable, NamedTuple
 
 from showops.verdict import Reason, Verdict
 
@@ -25,9 +25,12 @@ EQU = "EN 1990 EQU"
 GAMMA_G_DST, GAMMA_G_STB, GAMMA_Q_DST, GAMMA_Q_STB = 1.1, 0.9, 1.5, 0.0
 
 
-@dataclass(frozen=True)
-class Check:
-    """One limit against its figure: ``usage`` is figure / limit (1.0 = at the limit)."""
+class Check(NamedTuple):
+    """One limit against its figure: ``usage`` is figure / limit (1.0 = at the limit).
+
+    A named tuple rather than a frozen dataclass: as immutable, and several times
+    cheaper to build, which matters in a solve that builds a dozen of them.
+    """
 
     limit: str
     label: str
@@ -55,7 +58,8 @@ def level_for(usage: float, caution_at: float) -> Verdict:
 def check(limit: str, label: str, value: float, allowed: float, unit: str, caution_at: float) -> Check:
     """Return the :class:`Check` of a magnitude ``value`` against ``allowed``."""
     usage = value / allowed
-    return Check(limit, label, value, allowed, unit, usage, level_for(usage, caution_at))
+    level = "blocked" if usage > 1.0 + 1e-12 else "caution" if usage >= caution_at else "ok"
+    return Check(limit, label, value, allowed, unit, usage, level)
 
 
 def reason_for(item: Check, caution_at: float, source_note: str = "") -> Reason:
@@ -85,8 +89,7 @@ def reason_for(item: Check, caution_at: float, source_note: str = "") -> Reason:
 
 # --------------------------------------------------------------------------- stability
 
-@dataclass(frozen=True)
-class StateResult:
+class StateResult(NamedTuple):
     """The whole machine on its casters in one state of the ride."""
 
     state: str
@@ -102,6 +105,79 @@ class StateResult:
                 "tipping_margin": self.tipping_margin, "tipping_about": self.tipping_about}
 
 
+@dataclass(frozen=True)
+class PermanentSums:
+    """The permanent actions of one state about the caster lines, summed once.
+
+    ``moment_rear_nm`` is ``Σ F·(x - rear_x)``; the ``*_dst``/``*_stb`` are the
+    destabilising and stabilising moments about the front and rear lines (all >= 0).
+    """
+
+    total_n: float
+    moment_rear_nm: float
+    front_dst: float
+    front_stb: float
+    rear_dst: float
+    rear_stb: float
+
+    def scaled(self, factor: float) -> "PermanentSums":
+        """Return the sums for forces ``factor`` times larger (masses to weights)."""
+        return PermanentSums(self.total_n * factor, self.moment_rear_nm * factor, self.front_dst * factor,
+                             self.front_stb * factor, self.rear_dst * factor, self.rear_stb * factor)
+
+
+def permanent_sums(items: Iterable[tuple[float, float]], front_x_m: float, rear_x_m: float) -> PermanentSums:
+    """Sum permanent vertical forces ``(force_n, x_m)`` about the caster lines."""
+    total = moment = f_dst = f_stb = r_dst = r_stb = 0.0
+    for force, x in items:
+        total += force
+        moment += force * (x - rear_x_m)
+        about_front = force * (x - front_x_m)   # > 0 turns the machine over the front line
+        about_rear = force * (rear_x_m - x)     # > 0 turns it over the rear line
+        if about_front > 0:
+            f_dst += about_front
+        else:
+            f_stb -= about_front
+        if about_rear > 0:
+            r_dst += about_rear
+        else:
+            r_stb -= about_rear
+    return PermanentSums(total, moment, f_dst, f_stb, r_dst, r_stb)
+
+
+def state_from_parts(name: str, description: str, permanent: PermanentSums,
+                     variable: Iterable[tuple[float, float]], front_x_m: float, rear_x_m: float,
+                     tipping: str | float) -> StateResult:
+    """Return one state's floor reactions and tipping margin.
+
+    :param permanent: the summed permanent actions (self-weight, counterweight, base).
+    :param variable: ``(force_n, x_m)`` of each variable action (riders, the lifters'
+        pull), positive downwards.
+    """
+    xf, xr = front_x_m, rear_x_m
+    total, moment = permanent.total_n, permanent.moment_rear_nm
+    f_dst_q = f_stb_q = r_dst_q = r_stb_q = 0.0
+    for force, x in variable:
+        total += force
+        moment += force * (x - xr)
+        about_front = force * (x - xf)
+        about_rear = force * (xr - x)
+        if about_front > 0:
+            f_dst_q += about_front
+        else:
+            f_stb_q -= about_front
+        if about_rear > 0:
+            r_dst_q += about_rear
+        else:
+            r_stb_q -= about_rear
+    front = moment / (xf - xr)
+    m_front = _margin(permanent.front_dst, f_dst_q, permanent.front_stb, f_stb_q, tipping)
+    m_rear = _margin(permanent.rear_dst, r_dst_q, permanent.rear_stb, r_stb_q, tipping)
+    if m_rear is not None and (m_front is None or m_rear < m_front):
+        return StateResult(name, description, front, total - front, m_rear, "rear")
+    return StateResult(name, description, front, total - front, m_front, "front")
+
+
 def stability(name: str, description: str, items: Iterable[tuple[float, float, bool]],
               front_x_m: float, rear_x_m: float, tipping: str | float) -> StateResult:
     """Return the floor reactions and the tipping margin of one state.
@@ -114,41 +190,10 @@ def stability(name: str, description: str, items: Iterable[tuple[float, float, b
     :returns: the reactions at the front and rear caster lines (positive up) and the
         smaller margin of the two lines (``None`` when nothing can tip the machine).
     """
-    xf, xr = front_x_m, rear_x_m
-    span = xf - xr
-    total = front_moment = 0.0
-    # destabilising / stabilising moments about each line, permanent and variable apart
-    f_dst_g = f_dst_q = f_stb_g = f_stb_q = 0.0
-    r_dst_g = r_dst_q = r_stb_g = r_stb_q = 0.0
-    for force, x, variable in items:
-        total += force
-        front_moment += force * (x - xr)
-        about_front = force * (x - xf)   # > 0 turns the machine over the front line
-        about_rear = force * (xr - x)    # > 0 turns it over the rear line
-        if variable:
-            if about_front > 0:
-                f_dst_q += about_front
-            else:
-                f_stb_q -= about_front
-            if about_rear > 0:
-                r_dst_q += about_rear
-            else:
-                r_stb_q -= about_rear
-        else:
-            if about_front > 0:
-                f_dst_g += about_front
-            else:
-                f_stb_g -= about_front
-            if about_rear > 0:
-                r_dst_g += about_rear
-            else:
-                r_stb_g -= about_rear
-    front = front_moment / span
-    m_front = _margin(f_dst_g, f_dst_q, f_stb_g, f_stb_q, tipping)
-    m_rear = _margin(r_dst_g, r_dst_q, r_stb_g, r_stb_q, tipping)
-    if m_rear is not None and (m_front is None or m_rear < m_front):
-        return StateResult(name, description, front, total - front, m_rear, "rear")
-    return StateResult(name, description, front, total - front, m_front, "front")
+    items = list(items)
+    permanent = permanent_sums(((f, x) for f, x, var in items if not var), front_x_m, rear_x_m)
+    return state_from_parts(name, description, permanent, ((f, x) for f, x, var in items if var),
+                            front_x_m, rear_x_m, tipping)
 
 
 def _margin(dst_g: float, dst_q: float, stb_g: float, stb_q: float, tipping: str | float) -> float | None:

@@ -17,6 +17,7 @@ from __future__ import annotations
 import hashlib
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any, Literal, Sequence
 
 import numpy as np
@@ -29,7 +30,7 @@ from showops.rig.frame import (FrameModel, FrameModelError, Member, PointLoad, S
                                UniformLoad, NodeLoad, solve_frame)
 from showops.rig.kinds import RigKind, register
 from showops.rig.linkage import validate_riders
-from showops.rig.model import Base
+from showops.rig.model import Advisor, Base
 from showops.units import STANDARD_GRAVITY, format_quantity
 from showops.verdict import Reason, Verdict, verdict_of
 
@@ -120,11 +121,12 @@ class FrameRig:
     operators_node: str
     limits: FrameLimits
     base: Base | None = None
+    advisor: Advisor = field(default_factory=Advisor)
     text: str = ""
     source: str = "<rig>"
     kind: str = "frame"
 
-    @property
+    @cached_property
     def version(self) -> str:
         """The SHA-256 of the rig file's text."""
         return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
@@ -218,10 +220,17 @@ def read_frame(top: TableReader, text: str) -> FrameRig:
         bt.finish()
 
     limits = _read_limits(top.sub("limits"), base is not None)
+    advisor = Advisor()
+    at = top.sub("advisor", required=False)
+    if at is not None:
+        advisor = Advisor(plates_kg=at.list_of_quantities("plates", "mass"),
+                          max_operators=at.integer("max_operators", None))
+        at.finish()
     top.finish()
     rig = FrameRig(name=name, nodes=tuple(nodes), sections=tuple(sections), members=tuple(members),
                    loads=tuple(loads), riders=riders, rider_allowance_kg=allowance,
-                   operators_node=operators_node, limits=limits, base=base, text=text, source=top.source)
+                   operators_node=operators_node, limits=limits, base=base, advisor=advisor, text=text,
+                   source=top.source)
     try:  # refuse a frame that cannot be solved now, naming the file, not at the cue
         solve_frame(build_model(rig, rider_n=1.0, g=STANDARD_GRAVITY))
     except FrameModelError as exc:

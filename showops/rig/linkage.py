@@ -23,12 +23,14 @@ from dataclasses import dataclass, field
 from typing import Any, Sequence
 
 from showops.errors import RigFileError, ValidationError
+from showops.rig.checks import (Check, PermanentSums, StateResult, check, permanent_sums,
+                                reason_for, state_from_parts, tipping_checks)
 from showops.rig.fields import TableReader
 from showops.rig.kinds import RigKind, register
 from showops.rig.model import (EQU, HANDLE_MOUNTS, MOUNTS, Advisor, Base, Geometry,
                                LinkageRig, Limits, Load, Riders)
 from showops.units import STANDARD_GRAVITY
-from showops.verdict import Reason, Verdict, verdict_of
+from showops.verdict import Reason, Verdict, verdict_of  # noqa: F401
 
 # --------------------------------------------------------------------------- reading
 
@@ -67,10 +69,17 @@ def read_linkage(top: TableReader, text: str) -> LinkageRig:
 
     loads = []
     for lt in top.array("load", required=False):
-        loads.append(Load(name=lt.text("name"), mass_kg=lt.quantity("mass", "mass", positive=True),
-                          on=lt.choice("on", MOUNTS), x_m=lt.quantity("x", "length"),
-                          counterweight=lt.boolean("counterweight", False)))
+        load = Load(name=lt.text("name"), mass_kg=lt.quantity("mass", "mass", positive=True),
+                    on=lt.choice("on", MOUNTS), x_m=lt.quantity("x", "length"),
+                    counterweight=lt.boolean("counterweight", False))
+        if load.on == "platform" and not load.x_m > 0:
+            raise lt.error("x", f"{load.x_m:g} m puts a platform load behind the pivot line; the platform "
+                                "is in front of it (x > 0)")
+        if load.on == "rear-bar" and not load.x_m < 0:
+            raise lt.error("x", f"{load.x_m:g} m puts a rear-bar load in front of the pivot line; the rear "
+                                "bar is behind it (x < 0)")
         lt.finish()
+        loads.append(load)
 
     if not top.has("riders"):
         raise top.error("riders", "missing: give [riders] with x, the riders' combined centre of mass")
@@ -79,6 +88,9 @@ def read_linkage(top: TableReader, text: str) -> LinkageRig:
         raise rt.error("x", "missing: the riders' combined centre of mass, in m from the pivot line")
     riders = Riders(x_m=rt.quantity("x", "length"),
                     allowance_kg=rt.quantity("allowance", "mass", 0.0, nonnegative=True))
+    if not riders.x_m > 0:
+        raise rt.error("x", f"{riders.x_m:g} m puts the riders behind the pivot line; they stand on the "
+                            "platform, in front of it (x > 0)")
     rt.finish()
 
     lt = top.sub("limits")
@@ -115,7 +127,8 @@ def read_linkage(top: TableReader, text: str) -> LinkageRig:
         advisor = Advisor(plates_kg=at.list_of_quantities("plates", "mass"),
                           handle_min_x_m=at.quantity("handle_min_x", "length", None, negative=True),
                           handle_max_x_m=at.quantity("handle_max_x", "length", None, negative=True),
-                          max_operators=at.integer("max_operators", None))
+                          max_operators=at.integer("max_operators", None),
+                          handle_step_m=at.quantity("handle_step", "length", None, positive=True))
         if (advisor.handle_min_x_m is not None and advisor.handle_max_x_m is not None
                 and advisor.handle_min_x_m > advisor.handle_max_x_m):
             raise at.error("handle_min_x", "must be further back (more negative) than handle_max_x")
@@ -145,39 +158,6 @@ class Force:
     on: str          # a Mount, "handle" or "base"
     x_m: float       # at the level position
     variable: bool   # riders and operators: a variable action for EN 1990 EQU
-
-
-@dataclass(frozen=True)
-class StateResult:
-    """The whole machine on its casters in one state of the ride."""
-
-    state: str
-    description: str
-    front_reaction_n: float
-    rear_reaction_n: float
-    tipping_margin: float | None   # >= 1 passes; None when nothing can tip it
-    tipping_about: str             # "front" or "rear" caster line, the critical one
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"state": self.state, "description": self.description,
-                "front_reaction_n": self.front_reaction_n, "rear_reaction_n": self.rear_reaction_n,
-                "tipping_margin": self.tipping_margin, "tipping_about": self.tipping_about}
-
-
-@dataclass(frozen=True)
-class Check:
-    """One limit against its figure: ``usage`` is figure / limit (1.0 = at the limit)."""
-
-    limit: str
-    label: str
-    value: float
-    allowed: float
-    unit: str
-    usage: float
-    level: Verdict
-
-    def to_dict(self) -> dict[str, Any]:
-        return dict(self.__dict__)
 
 
 @dataclass(frozen=True)
@@ -306,48 +286,105 @@ def beam_swing_rad(rig: LinkageRig) -> float:
     return math.asin(rig.geometry.stroke_m / (2 * rig.geometry.front_arm_m))
 
 
+@dataclass(frozen=True)
+class LinkageConstants:
+    """What a solve needs that does not depend on the riders or on g (masses in kg).
+
+    Computed once per rig (:attr:`LinkageRig.constants`) so the solve for a list of
+    riders is a handful of multiplications.
+    """
+
+    handle_lever_m: float
+    lever_kgm: float             # Σ m·k of the fixed loads (virtual-work levers)
+    mass_kg: float               # Σ m of the fixed loads
+    moment_kgm: float            # Σ m·x of the fixed loads at level
+    platform_couple_kgm: float   # Σ m·(x - a) of the loads on the platform
+    rear_couple_kgm: float       # Σ m·(-x - b) of the loads on the rear bar
+    swing_rad: float
+    rider_x_m: tuple[float, float, float]    # at -swing, level, +swing
+    handle_x_m: tuple[float, float, float]
+    permanent_kg: tuple[PermanentSums, PermanentSums, PermanentSums]  # loads and base, in kg
+    _by_g: dict = field(default_factory=dict, compare=False, repr=False)
+
+    def permanent_n(self, g: float) -> tuple[PermanentSums, PermanentSums, PermanentSums]:
+        """Return :attr:`permanent_kg` as weights for gravity ``g`` (cached per g)."""
+        sums = self._by_g.get(g)
+        if sums is None:
+            sums = self._by_g[g] = tuple(p.scaled(g) for p in self.permanent_kg)
+        return sums
+
+
+def linkage_constants(rig: LinkageRig) -> LinkageConstants:
+    """Return the rider-independent sums of ``rig`` (see :class:`LinkageConstants`)."""
+    geo = rig.geometry
+    a, b = geo.front_arm_m, geo.rear_arm_m
+    swing = beam_swing_rad(rig)
+    angles = (-swing, 0.0, swing)
+    base = rig.base
+    permanent = tuple(
+        permanent_sums([(load.mass_kg, x_at(rig, load.on, load.x_m, angle)) for load in rig.loads]
+                       + [(base.mass_kg, base.x_m)], base.front_x_m, base.rear_x_m)
+        for angle in angles)
+    return LinkageConstants(
+        handle_lever_m=handle_lever(rig),
+        lever_kgm=sum(load.mass_kg * lever(rig, load.on, load.x_m) for load in rig.loads),
+        mass_kg=sum(load.mass_kg for load in rig.loads),
+        moment_kgm=sum(load.mass_kg * load.x_m for load in rig.loads),
+        platform_couple_kgm=sum(load.mass_kg * (load.x_m - a) for load in rig.loads if load.on == "platform"),
+        rear_couple_kgm=sum(load.mass_kg * (-load.x_m - b) for load in rig.loads if load.on == "rear-bar"),
+        swing_rad=swing,
+        rider_x_m=tuple(x_at(rig, "platform", rig.riders.x_m, angle) for angle in angles),
+        handle_x_m=tuple(x_at(rig, "handle", geo.handle_x_m, angle) for angle in angles),
+        permanent_kg=permanent,
+    )
+
+
 def solve_linkage(rig: LinkageRig, rider_masses_kg: Sequence[float] = (), g: float = STANDARD_GRAVITY) -> LinkageResult:
     """Solve the lift at the level position for these riders.
+
+    Every figure is linear in the weights, so the solve combines the rig's
+    rider-independent sums (:func:`linkage_constants`, computed once per rig) with
+    the riders' design weight. The states of the ride put the riders and the pull at
+    their positions for the beam angle of each state (bottom, level, top).
 
     :param rider_masses_kg: each rider's own mass; the file's allowance is added per rider
         and the dynamic factor applied to their weight.
     :param g: gravity in m/s² (standard gravity unless a worked example says otherwise).
     :raises ValidationError: for a rider mass that is not a positive number.
     """
-    geo, lim = rig.geometry, rig.limits
+    geo, lim, const = rig.geometry, rig.limits, rig.constants
     a, b, h = geo.front_arm_m, geo.rear_arm_m, geo.pivot_spacing_m
     rider_mass, rider_n = rider_weight_n(rig, rider_masses_kg, g)
-    loaded = forces(rig, rider_n, g)
-    empty = forces(rig, 0.0, g, riders=False)
+    rider_x = rig.riders.x_m
+    on_rear_bar = geo.handle_on == "rear-bar"
 
-    pull = pull_for(rig, loaded)
-    pull_empty = pull_for(rig, empty)
-    moment = stand_moment(rig, loaded, pull)
+    # Virtual work: P·k_P = Σ F·k, riders on the platform with k = a.
+    lever_empty = const.lever_kgm * g
+    lever_loaded = lever_empty + rider_n * a
+    pull = lever_loaded / const.handle_lever_m
+    pull_empty = lever_empty / const.handle_lever_m
+    loads_moment = const.moment_kgm * g + rider_n * rider_x
+    moment = loads_moment + pull * geo.handle_x_m
 
     # Beam couples at level: front bracket, then rear bar (with the pull if it hangs there).
-    front = sum(f.force_n * (f.x_m - a) for f in loaded if f.on == "platform") / h
-    rear_items = [(f.force_n, f.x_m) for f in loaded if f.on == "rear-bar"]
-    if geo.handle_on == "rear-bar":
-        rear_items.append((pull, geo.handle_x_m))
-    rear = sum(force * (-x - b) for force, x in rear_items) / h
+    front = (const.platform_couple_kgm * g + rider_n * (rider_x - a)) / h
+    rear = const.rear_couple_kgm * g
+    if on_rear_bar:
+        rear += pull * (-geo.handle_x_m - b)
+    rear /= h
+    total_vertical = const.mass_kg * g + rider_n + pull
+    # With the pull on a beam, M does not depend on the handle position.
+    balanced = -loads_moment / pull if on_rear_bar and pull > 0 else None
+    brake = lever_loaded / b
+    brake_empty = lever_empty / b
 
-    # The stand on the linkage: R_upper = -M/h, R_lower = +M/h; reported as the
-    # force of the linkage on the stand (positive towards the platform).
-    total_vertical = sum(f.force_n for f in loaded) + pull
-    if geo.handle_on == "rear-bar":
-        balanced = -sum(f.force_n * f.x_m for f in loaded) / pull if pull > 0 else None
-    else:
-        balanced = None  # with the pull on a beam, M does not depend on the handle position
-
-    brake = sum(f.force_n * lever(rig, f.on, f.x_m) for f in loaded) / b
-    brake_empty = sum(f.force_n * lever(rig, f.on, f.x_m) for f in empty) / b
-    swing = beam_swing_rad(rig)
-    states = _states(rig, loaded, empty, pull, pull_empty, swing, g)
-
+    states = _states(rig, const, rider_n, pull, pull_empty, g)
     axial = {"upper_beam_axial_front_n": front, "upper_beam_axial_rear_n": rear,
              "lower_beam_axial_front_n": -front, "lower_beam_axial_rear_n": -rear}
-    checks = _checks(rig, rider_mass, pull, moment, axial, brake, brake_empty, states)
-    reasons = tuple(_reason(c, rig) for c in checks if c.level != "ok")
+    checks = _checks(rig, rider_mass, pull, moment, front, rear, brake, brake_empty, states)
+    c = lim.caution_at
+    reasons = tuple(reason_for(item, c, lim.operator_force_source if item.limit == "operator_force_per_person" else "")
+                    for item in checks if item.level != "ok")
     notes = []
     if pull_empty < 0:
         notes.append(f"With nobody aboard the counterweight lifts the platform: the brake must hold "
@@ -355,7 +392,7 @@ def solve_linkage(rig: LinkageRig, rider_masses_kg: Sequence[float] = (), g: flo
     if pull < 0:
         notes.append("With these riders the counterweight outweighs them: the lifters hold the "
                      "platform down rather than pull it up.")
-    if balanced is None and geo.handle_on != "rear-bar":
+    if not on_rear_bar:
         notes.append("The handle is on a beam: moving it changes the pull, not the stand moment.")
     return LinkageResult(
         rig_name=rig.name, rig_version=rig.version, gravity=g, rider_count=len(rider_masses_kg),
@@ -365,7 +402,7 @@ def solve_linkage(rig: LinkageRig, rider_masses_kg: Sequence[float] = (), g: flo
         upper_pivot_horizontal_n=moment / h, lower_pivot_horizontal_n=-moment / h,
         pivot_vertical_n=total_vertical, balanced_handle_x_m=balanced,
         empty_operator_force_n=pull_empty, brake_force_n=brake, empty_brake_force_n=brake_empty,
-        handle_travel_m=geo.stroke_m * handle_lever(rig) / a, beam_swing_deg=math.degrees(swing),
+        handle_travel_m=geo.stroke_m * const.handle_lever_m / a, beam_swing_deg=math.degrees(const.swing_rad),
         states=states, checks=checks, verdict=verdict_of(reasons), reasons=reasons,
         operator_force_source=lim.operator_force_source, notes=tuple(notes),
     )
@@ -373,109 +410,51 @@ def solve_linkage(rig: LinkageRig, rider_masses_kg: Sequence[float] = (), g: flo
 
 # --------------------------------------------------------------------------- stability
 
-# EN 1990:2002 Annex A1, Table A1.2(A) (EQU): partial factors for static equilibrium.
-# Secondary source for the values: common structural-design teaching; checked from memory.
-GAMMA_G_DST, GAMMA_G_STB, GAMMA_Q_DST, GAMMA_Q_STB = 1.1, 0.9, 1.5, 0.0
+def _states(rig: LinkageRig, const: LinkageConstants, rider_n: float, pull: float, pull_empty: float,
+            g: float) -> tuple[StateResult, ...]:
+    """Return the machine on its casters in each state of :data:`STATES`.
 
-
-def _states(rig, loaded, empty, pull, pull_empty, swing, g) -> tuple[StateResult, ...]:
-    base = Force("base", rig.base.mass_kg * g, "base", rig.base.x_m, False)
-    hx = rig.geometry.handle_x_m
-
-    def positioned(items, angle, pull_n):
-        out = [(f.force_n, x_at(rig, f.on, f.x_m, angle), f.variable) for f in items]
-        if pull_n:
-            out.append((pull_n, x_at(rig, "handle", hx, angle), True))
-        out.append((base.force_n, base.x_m, False))
-        return out
-
-    layouts = {
-        "boarding": positioned(loaded, -swing, 0.0),
-        "lifting": positioned(loaded, 0.0, pull),
-        "at height": positioned(loaded, swing, pull),
-        "empty, brake on": positioned(empty, 0.0, 0.0),
-        "empty, brake off": positioned(empty, 0.0, pull_empty),
-    }
-    return tuple(_stability(rig, name, desc, layouts[name]) for name, desc in STATES)
-
-
-def _stability(rig: LinkageRig, name: str, description: str, items) -> StateResult:
-    xf, xr = rig.base.front_x_m, rig.base.rear_x_m
-    total = sum(force for force, _, _ in items)
-    front = sum(force * (x - xr) for force, x, _ in items) / (xf - xr)
-    margins = {"front": _margin(rig, [(force * (x - xf), var) for force, x, var in items]),
-               "rear": _margin(rig, [(force * (xr - x), var) for force, x, var in items])}
-    critical = min(margins, key=lambda k: math.inf if margins[k] is None else margins[k])
-    return StateResult(name, description, front, total - front, margins[critical], critical)
-
-
-def _margin(rig: LinkageRig, moments: list[tuple[float, bool]]) -> float | None:
-    """Return stabilising over destabilising design moment about one caster line, or None."""
-    if rig.limits.tipping == EQU:
-        dst = sum(m * (GAMMA_Q_DST if var else GAMMA_G_DST) for m, var in moments if m > 0)
-        stb = sum(-m * (GAMMA_Q_STB if var else GAMMA_G_STB) for m, var in moments if m < 0)
-        factor = 1.0
-    else:
-        dst = sum(m for m, _ in moments if m > 0)
-        stb = sum(-m for m, _ in moments if m < 0)
-        factor = float(rig.limits.tipping)
-    if dst <= 1e-9:
-        return None
-    return stb / dst / factor
+    The riders' weight and the lifters' pull are variable actions (EN 1990): with
+    ``EN 1990 EQU`` they get 1.5 where they turn the machine over and no credit where
+    they steady it.
+    """
+    base, tipping = rig.base, rig.limits.tipping
+    xf, xr = base.front_x_m, base.rear_x_m
+    bottom, level, top = const.permanent_n(g)
+    rx, hx = const.rider_x_m, const.handle_x_m
+    riders = rider_n > 0
+    layouts = (
+        (bottom, ((rider_n, rx[0]),) if riders else ()),
+        (level, ((rider_n, rx[1]), (pull, hx[1])) if riders else ((pull, hx[1]),)),
+        (top, ((rider_n, rx[2]), (pull, hx[2])) if riders else ((pull, hx[2]),)),
+        (level, ()),
+        (level, ((pull_empty, hx[1]),)),
+    )
+    return tuple(state_from_parts(name, desc, permanent, variable, xf, xr, tipping)
+                 for (name, desc), (permanent, variable) in zip(STATES, layouts))
 
 
 # --------------------------------------------------------------------------- limits
 
-def _level(usage: float, caution_at: float) -> Verdict:
-    if usage > 1.0 + 1e-12:
-        return "blocked"
-    if usage >= caution_at:
-        return "caution"
-    return "ok"
-
-
-def _checks(rig, rider_mass, pull, moment, axial, brake, brake_empty, states) -> tuple[Check, ...]:
+def _checks(rig, rider_mass, pull, moment, front, rear, brake, brake_empty, states) -> tuple[Check, ...]:
     lim = rig.limits
     c = lim.caution_at
-    per_person = abs(pull) / lim.operators
-    axial_name, axial_value = max(axial.items(), key=lambda kv: abs(kv[1]))
-    brake_value = max(abs(brake), abs(brake_empty))
-    rows = [
-        ("rated_payload", "riders with allowance", rider_mass, lim.rated_payload_kg, "kg"),
-        ("operator_force_per_person", f"pull per lifter ({lim.operators} lifters)", per_person,
-         lim.operator_force_per_person_n, "N"),
-        ("stand_moment", "moment on the stand", abs(moment), lim.stand_moment_nm, "N·m"),
-        ("beam_axial", "largest beam force (" + axial_name.replace("_n", "").replace("_", " ") + ")",
-         abs(axial_value), lim.beam_axial_n, "N"),
-        ("brake_holding", "force the brake holds" + (" with nobody aboard" if abs(brake_empty) >= abs(brake) else ""),
-         brake_value, lim.brake_holding_n, "N"),
+    if abs(front) >= abs(rear):
+        axial_label, axial_value = "upper beam axial front", abs(front)
+    else:
+        axial_label, axial_value = "upper beam axial rear", abs(rear)
+    empty_governs = abs(brake_empty) >= abs(brake)
+    checks = [
+        check("rated_payload", "riders with allowance", rider_mass, lim.rated_payload_kg, "kg", c),
+        check("operator_force_per_person", f"pull per lifter ({lim.operators} lifters)",
+              abs(pull) / lim.operators, lim.operator_force_per_person_n, "N", c),
+        check("stand_moment", "moment on the stand", abs(moment), lim.stand_moment_nm, "N·m", c),
+        check("beam_axial", f"largest beam force ({axial_label})", axial_value, lim.beam_axial_n, "N", c),
+        check("brake_holding", "force the brake holds" + (" with nobody aboard" if empty_governs else ""),
+              abs(brake_empty) if empty_governs else abs(brake), lim.brake_holding_n, "N", c),
     ]
-    checks = [Check(key, label, value, allowed, unit, value / allowed, _level(value / allowed, c))
-              for key, label, value, allowed, unit in rows]
-    for state in states:
-        if state.tipping_margin is None:
-            continue
-        usage = 1.0 / state.tipping_margin if state.tipping_margin > 0 else math.inf
-        method = "EN 1990 EQU" if lim.tipping == EQU else f"factor {float(lim.tipping):g}"
-        checks.append(Check(f"tipping:{state.state}", f"tipping {state.tipping_about}wards, {state.state} ({method})",
-                            state.tipping_margin, 1.0, "", usage, _level(usage, c)))
+    checks += tipping_checks(states, lim.tipping, c)
     return tuple(checks)
-
-
-def _reason(check: Check, rig: LinkageRig) -> Reason:
-    if check.limit.startswith("tipping:"):
-        text = (f"{check.label}: stability margin {check.value:.2f} "
-                + ("is below 1.00, the machine can tip" if check.level == "blocked"
-                   else f"is within {1 / rig.limits.caution_at:.2f} of tipping"))
-        return Reason(text=text, level=check.level, limit=check.limit, value=check.value, allowed=1.0)
-    pct = 100 * check.usage
-    diff = check.allowed - check.value
-    margin = (f"{-diff:,.0f} {check.unit} over" if diff < 0 else f"{diff:,.0f} {check.unit} to spare")
-    text = (f"{check.label} {check.value:,.0f} {check.unit} is {pct:.0f}% of the "
-            f"{check.allowed:,.0f} {check.unit} limit ({margin})")
-    if check.limit == "operator_force_per_person" and rig.limits.operator_force_source:
-        text += f"; limit from {rig.limits.operator_force_source}"
-    return Reason(text=text, level=check.level, limit=check.limit, value=check.value, allowed=check.allowed)
 
 
 LINKAGE = register(RigKind(

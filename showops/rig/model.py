@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Literal
 
 #: Where a load or the handle is fixed. The lever a load has in the virtual-work
@@ -83,6 +84,8 @@ class Advisor:
     handle_min_x_m: float | None = None
     handle_max_x_m: float | None = None
     max_operators: int | None = None
+    #: spacing of the handle positions the advisor tries (the holes a handle bolts to)
+    handle_step_m: float | None = None
 
 
 @dataclass(frozen=True)
@@ -101,7 +104,7 @@ class LinkageRig:
     source: str = "<rig>"
     kind: str = "parallel-linkage"
 
-    @property
+    @cached_property
     def version(self) -> str:
         """The SHA-256 of the rig file's text (the rig version every record names)."""
         return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
@@ -110,3 +113,10 @@ class LinkageRig:
     def counterweight_kg(self) -> float:
         """The total mass of the loads marked as counterweight."""
         return sum(load.mass_kg for load in self.loads if load.counterweight)
+
+    @cached_property
+    def constants(self):
+        """The rider-independent sums of a solve, computed once (a ``LinkageConstants``)."""
+        from showops.rig.linkage import linkage_constants  # the solver's module imports this one
+
+        return linkage_constants(self)

@@ -124,18 +124,47 @@ def procedure_api() -> tuple[Callable | None, str | None]:
     return check, getattr(module, "RULE_SET_VERSION", None) if check else None
 
 
-def check_cue_procedure(procedure, rig_result, context: Mapping[str, Any] | None = None) -> tuple[list[str] | None, str | None]:
+def check_cue_procedure(procedure, rig_result, context: Mapping[str, Any] | None = None,
+                        rig_slug: str | None = None) -> tuple[list[str] | None, str | None]:
     """Run the procedure checker; return (finding lines, rule-set version).
 
-    The finding lines are ``None`` when no checker is installed (the cue then carries a
-    caution saying its procedure was not checked).
+    ``context`` holds plain values (``load``: the solver's dict, ``riders``: names,
+    ``crew``: role -> names, ``performance``, ``cue``); the procedure package's own
+    ``render_context`` shapes them where it offers one. The finding lines are ``None``
+    when no checker is installed (the cue then carries a caution saying its procedure
+    was not checked).
     """
     check, version = procedure_api()
     if check is None or procedure is None:
         return None, version
-    findings = check(procedure, rig_result=rig_result, context=dict(context or {}))
+    context = dict(context or {})
+    shape = _render_context()
+    if shape is not None:
+        context = shape(**{k: context[k] for k in ("load", "riders", "crew", "performance", "cue") if k in context})
+    kwargs: dict[str, Any] = {"rig_result": rig_result, "context": context}
+    if rig_slug and _accepts(check, "rig_slug"):
+        kwargs["rig_slug"] = rig_slug
+    findings = check(procedure, **kwargs)
     source = getattr(procedure, "source", "<procedure>")
     return [f.format(source) for f in findings], version
+
+
+@functools.lru_cache(maxsize=1)
+def _render_context() -> Callable | None:
+    try:
+        module = importlib.import_module("showops.procedure.render")
+    except ImportError:
+        return None
+    return getattr(module, "render_context", None)
+
+
+def _accepts(func: Callable, name: str) -> bool:
+    import inspect
+
+    try:
+        return name in inspect.signature(func).parameters
+    except (TypeError, ValueError):
+        return False
 
 
 @functools.lru_cache(maxsize=1)
@@ -175,12 +204,22 @@ class RigSolver:
         self._solve = solve
         self._cache: dict[tuple, Any] = {}
         self._dicts: dict[int, dict] = {}
+        self._versions: dict[int, tuple[Any, str | None]] = {}
         #: procedure checker results, keyed by procedure version, result and staffed roles
         self.checked: dict[tuple, Any] = {}
         self.solves = 0
 
+    def version(self, model) -> str | None:
+        """``model.version`` (a SHA-256 of its text, computed on each access), once per model."""
+        if model is None:
+            return None
+        found = self._versions.get(id(model))
+        if found is None or found[0] is not model:
+            found = self._versions[id(model)] = (model, getattr(model, "version", None))
+        return found[1]
+
     def __call__(self, rig_model, rider_masses_kg: Sequence[float]):
-        key = (rig_model.version, tuple(sorted(float(m) for m in rider_masses_kg)))
+        key = (self.version(rig_model), tuple(sorted(float(m) for m in rider_masses_kg)))
         result = self._cache.get(key)
         if result is None:
             result = self._solve(rig_model, list(rider_masses_kg))
@@ -357,16 +396,21 @@ class _Context:
     advisor: Callable[[Any, Sequence[float]], str | None] = advisor_text
     checker: Callable[..., tuple[list[str] | None, str | None]] = check_cue_procedure
 
-    def check(self, procedure, result, context):
+    def check(self, procedure, result, context, rig_slug=None):
         """Run the checker once per procedure version, rig result and set of staffed roles."""
         if procedure is None:
-            return self.checker(procedure, result, context)
-        key = (id(self.checker), getattr(procedure, "version", id(procedure)), id(result),
+            return self._run(procedure, result, context, rig_slug)
+        key = (id(self.checker), self.solver.version(procedure), id(result), rig_slug,
                tuple(sorted(context["crew"])), len(context["riders"]))
         found = self.solver.checked.get(key)
         if found is None:
-            found = self.solver.checked[key] = self.checker(procedure, result, context)
+            found = self.solver.checked[key] = self._run(procedure, result, context, rig_slug)
         return found
+
+    def _run(self, procedure, result, context, rig_slug):
+        if rig_slug is not None and _accepts(self.checker, "rig_slug"):
+            return self.checker(procedure, result, context, rig_slug=rig_slug)
+        return self.checker(procedure, result, context)
 
 
 def _rider_reasons(cue: CueInput, riders: Sequence[Rider], starts_at: datetime, ctx: _Context):
@@ -412,11 +456,12 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     else:
         result, rider_reasons = _rider_reasons(cue, cue.riders, perf.starts_at, ctx)
         reasons += rider_reasons
-    context = {"riders": [r.name for r in cue.riders],
+    context = {"load": ctx.solver.as_dict(result) if result is not None else None,
+               "riders": [r.name for r in cue.riders],
                "crew": {role: [p.name for r2, p in cue.crew if r2 == role] for role, _ in cue.crew},
                "performance": {"id": perf.performance_id, "starts_at": perf.starts_at.isoformat()},
                "cue": {"number": cue.number, "name": cue.name}}
-    findings, rule_set = ctx.check(procedure, result, context) if result is not None else (None, None)
+    findings, rule_set = ctx.check(procedure, result, context, cue.rig) if result is not None else (None, None)
     reasons += procedure_reasons(procedure, findings)
     staffing = unstaffed_roles(procedure, cue.crew, cue.riders, cue.rig_model)
     staffing += role_not_held(cue.crew)
@@ -431,9 +476,9 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
         base,
         rig=cue.rig,
         rig_name=getattr(cue.rig_model, "name", None),
-        rig_version=getattr(cue.rig_model, "version", None),
+        rig_version=ctx.solver.version(cue.rig_model),
         procedure_title=getattr(procedure, "title", None),
-        procedure_version=getattr(procedure, "version", None),
+        procedure_version=ctx.solver.version(procedure),
         rider_total_kg=getattr(result, "rider_mass_kg", None) if result is not None else None,
         load=ctx.solver.as_dict(result) if result is not None else None,
         verdict=verdict_of(reasons),
@@ -447,6 +492,14 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
 
 
 _RIDER_LIMITS = ("rider_clearance", "rehearsal")
+
+
+def _short(reason: Reason) -> str:
+    """A few words for a reason, for a fix line that must not read like tonight's block."""
+    words = reason.limit.split(":")[0].replace("_", " ")
+    if reason.value is not None and reason.allowed is not None and reason.allowed:
+        return f"{words} at {100 * reason.value / reason.allowed:.0f}% of its limit"
+    return words
 
 
 def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _Context) -> list[str]:
@@ -474,7 +527,8 @@ def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _C
             _, other = _rider_reasons(cue, cast, perf.starts_at, ctx)
             still = [r for r in other if r.level == "blocked"]
             if still:
-                fixes.append(f"the other cast ({cast_name}: {_names(cast)}) does not clear it: {still[0].text}")
+                fixes.append(f"the other cast ({cast_name}: {_names(cast)}) does not clear it "
+                             f"({'; '.join(dict.fromkeys(_short(r) for r in still))})")
             else:
                 fixes.append(f"the other cast ({cast_name}: {_names(cast)}) clears the load and casting checks")
     for r in blocked:

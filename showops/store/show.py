@@ -10,6 +10,7 @@ to a caller outside :mod:`showops.show.verdicts` carries one person's mass.
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import importlib
 import math
@@ -148,6 +149,12 @@ def add_procedure(db: sqlite_utils.Database, slug: str, text: str, *, rig: str |
                       [slug, sha]).fetchone():
         db["procedure_version"].insert({"procedure_slug": slug, "sha256": sha, "text": text, "added_at": _now()})
     return sha
+
+
+def link_procedure(db: sqlite_utils.Database, slug: str, rig: str) -> int:
+    """Give every cue on ``rig`` that has no procedure this one; return how many cues changed."""
+    cursor = db.execute("UPDATE cue SET procedure_slug = ? WHERE rig_slug = ? AND procedure_slug IS NULL", [slug, rig])
+    return cursor.rowcount
 
 
 def _header(text: str, key: str) -> str | None:
@@ -378,9 +385,7 @@ def cue_list(db: sqlite_utils.Database, production_id: int | None = None) -> lis
 class _Season:
     """Everything the verdicts need, read once (a season is a few thousand rows)."""
 
-    def __init__(self, db: sqlite_utils.Database, solver: RigSolver | None = None):
-        from showops.rig import parse_rig
-
+    def __init__(self, db: sqlite_utils.Database, solver: RigSolver | None = None, only: int | None = None):
         self.db = db
         self.solver = solver or RigSolver()
         q = db.execute
@@ -389,13 +394,13 @@ class _Season:
         for slug, text in q("SELECT rig_slug, text FROM rig_version WHERE id IN "
                             "(SELECT MAX(id) FROM rig_version GROUP BY rig_slug)"):
             try:
-                self.rigs[slug] = parse_rig(text, source=f"{slug} (stored)")
+                self.rigs[slug] = _parse_rig_cached(text, f"{slug} (stored)")
             except (RigFileError, ShowopsError) as exc:  # e.g. a kind this build does not know
                 self.rig_errors[slug] = str(exc)
         self.procedures: dict[str, Any] = {}
         for slug, text in q("SELECT procedure_slug, text FROM procedure_version WHERE id IN "
                             "(SELECT MAX(id) FROM procedure_version GROUP BY procedure_slug)"):
-            self.procedures[slug] = read_procedure(text, f"procedures/{slug}.md")
+            self.procedures[slug] = _read_procedure_cached(text, f"procedures/{slug}.md")
         self.names = dict(q("SELECT id, name FROM person"))
         cleared: dict[int, set[str]] = {}
         for pid, rig in q("SELECT person_id, rig_slug FROM performer_rig"):
@@ -426,8 +431,12 @@ class _Season:
         for perf, cue, pid in q("SELECT performance_id, cue_id, person_id FROM performance_rider ORDER BY person_id"):
             self.night_riders.setdefault((perf, cue), []).append(pid)
         self.night_crew: dict[tuple[int, int], list[tuple[str, int]]] = {}
-        for perf, cue, role, pid in q("SELECT performance_id, cue_id, role, person_id FROM performance_crew "
-                                      "ORDER BY role, person_id"):
+        crew_sql = "SELECT performance_id, cue_id, role, person_id FROM performance_crew"
+        crew_args: list = []
+        if only is not None:
+            crew_sql += " WHERE performance_id = ?"
+            crew_args.append(only)
+        for perf, cue, role, pid in q(crew_sql + " ORDER BY role, person_id", crew_args):
             self.night_crew.setdefault((perf, cue), []).append((role, pid))
         self._since: dict[tuple[int, int], datetime | None] | None = None
         self.readiness = _care_hook(db, "readiness_reasons")
@@ -486,10 +495,25 @@ class _Season:
                            readiness=readiness)
             cues.append(cue)
         pool = tuple(sorted(self.crew.values(), key=lambda c: c.name))
+        # Rig care's lines for the sheet's cover (each rig's reasons once), when installed.
+        cover = _care_hook(self.db, "performance_readiness") if self.readiness is not None else None
         return PerformanceInput(performance_id=perf_id, production=production, company=company,
                                 venue=self.venues[venue_id], starts_at=datetime.fromisoformat(starts_at),
                                 stage_manager=self.names.get(sm) if sm else None, cues=tuple(cues),
-                                crew_pool=pool)
+                                crew_pool=pool, readiness=tuple(cover(self.db, perf_id)) if cover else ())
+
+
+@functools.lru_cache(maxsize=32)
+def _parse_rig_cached(text: str, source: str):
+    """Parse a stored rig text once per process (rig models are frozen; a new text is a new key)."""
+    from showops.rig import parse_rig
+
+    return parse_rig(text, source=source)
+
+
+@functools.lru_cache(maxsize=32)
+def _read_procedure_cached(text: str, source: str):
+    return read_procedure(text, source)
 
 
 def _as_datetime(value) -> datetime:
@@ -535,7 +559,7 @@ def load_night_plan(db: sqlite_utils.Database, performance_ref: Any, *, solver: 
     :raises NotFound: when there is no such performance.
     """
     perf_id = find_performance(db, performance_ref)
-    season = _Season(db, solver)
+    season = _Season(db, solver, only=perf_id)
     return night_plan(season.performance_input(perf_id), rehearsals=season.rehearsals, solver=season.solver)
 
 
@@ -870,3 +894,57 @@ def to_csv(rows: list[dict], columns: Sequence[str]) -> str:
     for row in rows:
         writer.writerow({k: row.get(k, "") if row.get(k) is not None else "" for k in columns})
     return buffer.getvalue()
+
+
+CUE_COLUMNS = ("number", "name")
+CUE_OPTIONAL = ("rig", "procedure")
+
+
+def import_cues_csv(db: sqlite_utils.Database, text: str, production_id: int, *,
+                    source: str = "cues.csv") -> ImportReport:
+    """Append cues to a production's cue list from CSV (columns ``number``, ``name``;
+    optional ``rig``, ``procedure``), in the file's order, all or nothing.
+
+    :raises ValidationError: for a missing or unknown column.
+    :raises NotFound: when the production does not exist.
+    :raises ImportRefused: listing every row that could not be taken (nothing is written).
+    """
+    if not db.execute("SELECT 1 FROM production WHERE id = ?", [production_id]).fetchone():
+        raise NotFound(f"production {production_id} does not exist")
+    rows = _read_csv(text, source, CUE_COLUMNS, CUE_OPTIONAL)
+    known_rigs = set(rig_slugs(db))
+    known_procedures = {r[0] for r in db.execute("SELECT slug FROM procedure")}
+    taken = {r[0] for r in db.execute("SELECT number FROM cue WHERE production_id = ?", [production_id])}
+    problems, seen, good = [], {}, []
+    for number, row in rows:
+        if row is None:
+            problems.append(f"row {number}: more cells than columns")
+            continue
+        try:
+            cue_number = row["number"]
+            if not cue_number:
+                raise ValidationError("number", "empty (give the cue number, e.g. 12 or 12a)")
+            name = _name(row["name"], "name")
+            rig = row.get("rig") or None
+            procedure = row.get("procedure") or None
+            if rig and rig not in known_rigs:
+                raise ValidationError("rig", f"unknown rig {rig!r} (known: {', '.join(sorted(known_rigs)) or 'none yet'})")
+            if procedure and procedure not in known_procedures:
+                raise ValidationError("procedure", f"unknown procedure {procedure!r} "
+                                                   f"(known: {', '.join(sorted(known_procedures)) or 'none yet'})")
+            if rig and not procedure and rig in known_procedures:
+                procedure = rig  # a rig's own procedure carries its slug
+            if cue_number in seen:
+                raise ValidationError("number", f"cue {cue_number} is also on row {seen[cue_number]}")
+            if cue_number in taken:
+                raise ValidationError("number", f"cue {cue_number} already exists in this production")
+            seen[cue_number] = number
+            good.append((cue_number, name, rig, procedure))
+        except ValidationError as exc:
+            problems.append(f"row {number}, {exc}")
+    if problems:
+        raise ImportRefused(source, problems)
+    with transaction(db):
+        for cue_number, name, rig, procedure in good:
+            add_cue(db, production_id, cue_number, name, rig=rig, procedure=procedure)
+    return ImportReport(source, len(rows), tuple(f"{n} {name}" for n, name, _, _ in good))

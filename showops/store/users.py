@@ -374,3 +374,80 @@ def sign_in_with_pin(db: sqlite_utils.Database, username: str, pin: str, *, addr
 def pin_users(db: sqlite_utils.Database) -> list[User]:
     """Return the active crew users who have a PIN (the names on the tablet's sign-in)."""
     return [u for u in list_users(db) if u.role == "crew" and u.has_pin and u.active]
+
+
+def people_to_link(db: sqlite_utils.Database) -> list[dict]:
+    """Return every person of the cast and crew (``id``, ``name``) with the user name
+    linked to them (``username``, or None), by name. Empty before any person exists."""
+    if "person" not in db.table_names():
+        return []
+    rows = db.execute("SELECT p.id, p.name, u.username FROM person p LEFT JOIN web_user u ON u.person_id = p.id "
+                      "ORDER BY p.name")
+    return [{"id": i, "name": n, "username": u} for i, n, u in rows]
+
+
+# --------------------------------------------------------------------------- the demo's sign-ins
+
+#: Every demo sign-in uses this password (printed by ``showops demo``; a demo instance
+#: is for trying showops out, never for a real show).
+DEMO_PASSWORD = "glass-orchard"
+#: Invented people who sign in but are not in the cast and crew tables.
+DEMO_ADMIN = ("lise", "Lise Armitage")         # technical director
+DEMO_VIEWER = ("odile", "Odile Brask")         # the company's producer, read-only
+#: Crew PINs for the backstage tablet, in the order of the crew list (none of them a
+#: repeated digit or a straight run).
+DEMO_PINS = ("2468", "3579", "4826", "5917", "6385", "7041", "8153", "9264")
+
+
+def demo_username(name: str) -> str:
+    """The demo's user name for a person: their first name in lower case ("Halden Voss" -> "halden")."""
+    return name.split()[0].lower()
+
+
+def install_demo_users(db: sqlite_utils.Database, *, stage_manager: str, crew: list[str],
+                       hash_method: str | None = None) -> list[dict]:
+    """Add the demo's sign-ins: the technical director, the stage manager, each crew
+    member (password and PIN) and a read-only producer. People are found by name in
+    the cast and crew tables.
+
+    :param stage_manager: the stage manager's name (a person; signs in as stage manager).
+    :param crew: the crew members' names (each a person), in the order their PINs are given.
+    :returns: ``username``, ``name``, ``role``, ``pin`` of each user made (for the printout).
+    :raises ValidationError: when a name is not a person, or a user exists already.
+    """
+    def person(name: str) -> int:
+        row = db.execute("SELECT id FROM person WHERE name = ?", [name]).fetchone()
+        if not row:
+            raise ValidationError("person", f"no person called {name!r} in the demo")
+        return row[0]
+
+    made = []
+    # the same method for every demo user, hashed once: scrypt costs ~0.4 s a hash
+    method = hash_method or DEFAULT_HASH_METHOD
+    password_hash = _hash(DEMO_PASSWORD, method)
+    stamp = _now_utc()
+
+    def add(username, name, role, person_id=None, pin=None):
+        if db.execute("SELECT 1 FROM web_user WHERE username = ?", [username]).fetchone():
+            raise ValidationError("username", f"{username!r} is taken")
+        db["web_user"].insert({"username": username, "display_name": name, "role": role, "person_id": person_id,
+                               "password_hash": password_hash, "pin_hash": _hash(pin, method) if pin else None,
+                               "active": 1, "created_at": stamp, "changed_at": stamp})
+        made.append({"username": username, "name": name, "role": role, "pin": pin})
+
+    add(*DEMO_ADMIN, "admin")
+    add(demo_username(stage_manager), stage_manager, "stage_manager", person(stage_manager))
+    for name, pin in zip([n for n in crew if n != stage_manager], DEMO_PINS):
+        check_pin_rules(pin)
+        add(demo_username(name), name, "crew", person(name), pin)
+    add(*DEMO_VIEWER, "viewer")
+    return made
+
+
+def crewed_performances(db: sqlite_utils.Database, person_id: int) -> list[tuple[int, str]]:
+    """Return ``(performance id, starts_at)`` of every performance ``person_id`` crews, in date order."""
+    if "performance_crew" not in db.table_names():
+        return []
+    return [(i, s) for i, s in db.execute(
+        "SELECT DISTINCT p.id, p.starts_at FROM performance p JOIN performance_crew c ON c.performance_id = p.id "
+        "WHERE c.person_id = ? ORDER BY p.starts_at, p.id", [person_id])]

@@ -39,7 +39,7 @@ PROCEDURE = Procedure(
     text="invented test procedure\n")
 
 # invented people
-SM = Actor(1, "Halden Voss", frozenset({"stage manager"}), "prompt-desk")
+SM = Actor(1, "Halden Voss", frozenset({"stage_manager"}), "prompt-desk")
 BRAKE = Actor(2, "Margit Oduya", frozenset({"crew"}), "phone-2")
 LIFTER_A = Actor(3, "Fenn Castell", frozenset({"crew"}), "phone-3")
 LIFTER_B = Actor(4, "Joss Penhaligon", frozenset({"crew"}), "phone-4")
@@ -56,3 +56,40 @@ def setup(**kw) -> CueSetup:
                   crew=CREW, start=PROCEDURE.start, procedure_version=PROCEDURE.version, rig_version="r" * 64)
     values.update(kw)
     return CueSetup(**values)
+
+
+def night_plan(performance_id: int = 1, *, blocked_cue: bool = False):
+    """An invented night: cue 3 and cue 8 on the lift, cue 5 blocked when asked, cue 1 no rig."""
+    from datetime import datetime, timezone
+
+    from showops.show.model import Assignment, CueNight, NightPlan
+    from showops.verdict import Reason
+
+    crew = tuple(Assignment(c.role, c.person_id, c.name) for c in CREW)
+
+    def rig_cue(cue_id, number, name, **kw):
+        return CueNight(cue_id=cue_id, number=number, name=name, rig="orchard-lift", rig_name="Orchard lift",
+                        rig_version="r" * 64, procedure_title=PROCEDURE.title, procedure_version=PROCEDURE.version,
+                        riders=("Corin Achterberg",), crew=crew, procedure=PROCEDURE, **kw)
+
+    reason = Reason("riders 151 kg over the rated payload 140 kg", limit="payload", value=151, allowed=140,
+                    fix="cast the first pair")
+    cues = (CueNight(cue_id=1, number="1", name="Dust on the sill"),
+            rig_cue(3, "3", "Blossom rise"),
+            rig_cue(5, "5", "Two in the branches",
+                    **({"verdict": "blocked", "reasons": (reason,), "fixes": ("cast the first pair",)}
+                       if blocked_cue else {})),
+            rig_cue(8, "8", "Windfall"))
+    return NightPlan(performance_id=performance_id, production="The Glass Orchard",
+                     company="Kestrel Yard Dance Company", venue="Ferrier Street Drill Hall",
+                     starts_at=datetime(2026, 11, 20, 19, 30, tzinfo=timezone.utc), stage_manager=SM.name,
+                     cues=cues)
+
+
+def plans(db, performance_id):
+    """A plan loader for the service: performance 1 ordinary, performance 2 with a blocked cue."""
+    from showops.errors import NotFound
+
+    if performance_id not in (1, 2):
+        raise NotFound(f"no performance {performance_id}")
+    return night_plan(performance_id, blocked_cue=performance_id == 2)

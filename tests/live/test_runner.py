@@ -112,9 +112,12 @@ def test_rows_carry_person_role_versions_and_spoken_for(lift):
 def test_a_blocked_cue_cannot_be_started_and_says_why_and_the_fix(lift):
     reason = Reason("riders 149 kg over the rated payload 140 kg", limit="payload", value=149, allowed=140,
                     fix="swap the cover rider")
-    sim = Sim(lift.setup(verdict="blocked", reasons=(reason,), fixes=("cast a lighter pair",)))
+    near = Reason("pull per lifter 168 N is 84% of the 200 N limit", level="caution")
+    sim = Sim(lift.setup(verdict="blocked", reasons=(near, reason), fixes=("cast a lighter pair",)))
     refusal = sim.refused("start", lift.SM)
     assert refusal.code == "blocked"
+    assert refusal.reason.startswith("Cue 3 'Blossom rise' is blocked tonight")  # the name keeps its case
+    assert "168 N" not in refusal.reason  # a caution is not why it is blocked
     assert "riders 149 kg over the rated payload 140 kg" in refusal.reason
     assert "What would clear it: cast a lighter pair" in refusal.reason
     assert sim.refused("confirm", lift.BRAKE, 1).code == "not_started"

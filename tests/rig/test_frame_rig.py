@@ -70,3 +70,28 @@ def test_rig_solve_cli_on_the_bough():
     assert data["verdict"] == "ok" and data["kind"] == "frame"
     assert {"rider_mass_kg", "operator_force_per_person_n", "empty_operator_force_n", "checks",
             "reasons", "states", "caution"} <= set(data)
+
+
+@pytest.mark.parametrize("riders", [(), (62,), (80,)])
+def test_bough_frame_matches_pynite(riders):
+    # PyNiteFEA on the same model (member point loads and self-weight included): every
+    # reaction, displacement, axial force and end moment to 1e-6 relative.
+    import numpy as np
+    from rig_references import solve_with_pynite
+
+    from showops.rig.frame import solve_frame
+    from showops.rig.frame_rig import build_model
+
+    rig = load_rig(BOUGH)
+    rider_n = sum(r + rig.rider_allowance_kg for r in riders) * G * rig.limits.dynamic_factor
+    model = build_model(rig, rider_n, G)
+    ours = solve_frame(model)
+    reactions, displacements, axial, moment = solve_with_pynite(model)
+    ef = ours.end_forces[0]
+    scale = np.abs(reactions).max()
+    np.testing.assert_allclose(ours.reactions[0], reactions, rtol=1e-6, atol=1e-6 * scale)
+    np.testing.assert_allclose(ours.displacements[0], displacements, rtol=1e-6,
+                               atol=1e-6 * np.abs(displacements).max())
+    np.testing.assert_allclose(np.stack([-ef[:, 0], ef[:, 3]], 1), axial, rtol=1e-6, atol=1e-6 * scale)
+    np.testing.assert_allclose(np.stack([-ef[:, 2], ef[:, 5]], 1), moment, rtol=1e-6,
+                               atol=1e-6 * np.abs(moment).max())

@@ -18,12 +18,13 @@ TODAY = date(2026, 12, 2)
 
 @pytest.fixture
 def procedures_dir(tmp_path) -> Path:
-    """The shipped procedures/ folder, with the test fixture's orchard-lift procedure
-    standing in for procedures/orchard-lift.md where the checkout does not have it yet."""
+    """The shipped procedures/ folder, with the test fixtures' procedures standing in for
+    any of procedures/orchard-lift.md and bough-lever.md the checkout does not have yet."""
     folder = tmp_path / "procedures"
     shutil.copytree(repo_procedures_dir(), folder)
-    if not (folder / "orchard-lift.md").exists():
-        shutil.copy(FIXTURES / "orchard-lift.md", folder / "orchard-lift.md")
+    for fixture in FIXTURES.glob("*.md"):
+        if not (folder / fixture.name).exists():
+            shutil.copy(fixture, folder / fixture.name)
     return folder
 
 

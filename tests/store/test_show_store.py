@@ -243,3 +243,24 @@ def test_verdict_rows_and_csv_carry_totals_not_masses(season):
     assert text.splitlines()[0] == ",".join(store.VERDICT_COLUMNS)
     assert "52.6" not in text and "61.3" not in text
     assert "nobody is assigned to" in text or "no procedure on file" in text
+
+
+def test_cue_import_appends_in_order_and_refuses_an_unknown_rig(season):
+    db, prod, *_ = season
+    store.add_cue(db, prod, "1", "Dust on the sill")
+    bad = ("number,name,rig\n"
+           "2,First frost,\n"
+           "3,Blossom rise,apple-crane\n"
+           "1,Again,\n"
+           "2,Twice,\n")
+    with pytest.raises(store.ImportRefused) as err:
+        store.import_cues_csv(db, bad, prod, source="cues.csv")
+    assert err.value.problems == [
+        "row 3, rig: unknown rig 'apple-crane' (known: orchard-lift)",
+        "row 4, number: cue 1 already exists in this production",
+        "row 5, number: cue 2 is also on row 2",
+    ]
+    assert db["cue"].count == 1
+    report = store.import_cues_csv(db, "number,name,rig\n2,First frost,\n3,Blossom rise,orchard-lift\n", prod)
+    assert report.added == ("2 First frost", "3 Blossom rise")
+    assert [(c["number"], c["rig"]) for c in store.cue_list(db)] == [("1", None), ("2", None), ("3", "orchard-lift")]

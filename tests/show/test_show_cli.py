@@ -143,3 +143,33 @@ def test_import_crew_then_a_clean_report(tmp_path, runner):
     result = runner.invoke(main, ["import", "crew", str(crew), "--instance", str(folder)])
     assert result.exit_code == 0, result.output
     assert result.output == f"Imported 1 crew from {crew}: Margit Oduya\n"
+
+
+def test_import_rig_and_procedure_make_new_versions_used_by_the_verdicts(instance, runner, tmp_path, procedures_dir):
+    from showops.store import open_db
+    from showops.store import show as store
+
+    rig_text = (procedures_dir / "rigs" / "orchard-lift.toml").read_text()
+    changed = tmp_path / "orchard-lift.toml"
+    changed.write_text(rig_text.replace("mass = 95", "mass = 100"))
+    result = runner.invoke(main, ["import", "rig", str(changed), "--instance", str(instance)])
+    assert result.exit_code == 0, result.output
+    assert result.output.startswith("Rig orchard-lift: version ")
+    result = runner.invoke(main, ["import", "procedure", str(procedures_dir / "orchard-lift.md"),
+                                  "--instance", str(instance)])
+    assert result.exit_code == 0, result.output
+    db = open_db(instance)
+    assert db.execute("SELECT COUNT(*) FROM rig_version WHERE rig_slug = 'orchard-lift'").fetchone()[0] == 2
+    plan = store.load_night_plan(db, 2)
+    blossom = next(c for c in plan.cues if c.number == "3")
+    import hashlib
+    assert blossom.rig_version == hashlib.sha256(changed.read_text().encode()).hexdigest()
+    assert "no procedure on file for this cue" not in [r.text for r in blossom.reasons]
+
+
+def test_import_rig_refuses_a_bad_rig_file(instance, runner, tmp_path):
+    bad = tmp_path / "apple-crane.toml"
+    bad.write_text("kind = 'catapult'\n")
+    result = runner.invoke(main, ["import", "rig", str(bad), "--instance", str(instance)])
+    assert result.exit_code == 2
+    assert result.output.startswith("Error: ") and "unknown kind 'catapult'" in result.output
