@@ -156,10 +156,10 @@ def _rig_model(db: sqlite_utils.Database, rig: str):
     row = db.execute("SELECT text FROM rig_version WHERE rig_slug = ? ORDER BY id DESC LIMIT 1", [rig]).fetchone()
     if row is None:
         return None
-    from showops.rig import parse_rig
+    from showops.store.show import parse_stored_rig  # parsed once per process, not once per cue
 
     try:
-        return parse_rig(row[0], source=f"{rig} (stored)")
+        return parse_stored_rig(row[0], rig)
     except ShowopsError:
         return None
 
