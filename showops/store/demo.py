@@ -44,6 +44,5 @@ def build_demo(db: sqlite_utils.Database, today: date) -> DemoReport:
                         f"{counts['refused']} refused attempt(s), {counts['holds']} hold(s)")
     from showops.store import audit
 
-    if hasattr(audit, "seed_demo_audit"):  # TEMP until the audit branch lands
-        report.notes += audit.seed_demo_audit(db, ids)
+    report.notes += audit.seed_demo_audit(db, ids)
     return report
