@@ -116,13 +116,22 @@
   function poll(now) {
     if (timer) { window.clearTimeout(timer); timer = null; }
     if (now !== true && document.hidden && view === "running-order") { timer = window.setTimeout(poll, pollMs); return; }
-    api("GET", "/api/performances/" + pid).then(function (data) {
+    // Ask for the night and the followed cue at once (one round trip, not two); fetch
+    // another cue only when the night says the followed one changed.
+    var guess = shownCue;
+    var cueAsk = guess === null ? Promise.resolve(null)
+      : api("GET", "/api/performances/" + pid + "/cues/" + guess);
+    Promise.all([api("GET", "/api/performances/" + pid), cueAsk]).then(function (both) {
+      var data = both[0];
       night = data;
       lastContact = Date.now();
       var target = chooseCue(data);
       if (target === null) { cue = null; shownCue = null; return null; }
       shownCue = target;
-      return api("GET", "/api/performances/" + pid + "/cues/" + target).then(function (c) { cue = c; });
+      if (target === guess && both[1]) { cue = both[1]; return null; }
+      return api("GET", "/api/performances/" + pid + "/cues/" + target).then(function (c) {
+        if (shownCue === target) { cue = c; }
+      });
     }).then(function () {
       setLink(true);
       render();
