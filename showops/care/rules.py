@@ -210,8 +210,20 @@ def briefing_reasons(rig: str, participants: Sequence[Participant], briefing: Br
 
 # --------------------------------------------------------------------------- rehearsal
 
-def _covers(rehearsal: Rehearsal, person: Participant) -> bool:
-    return any(m.role == person.role and m.person.same_as(person.person) for m in rehearsal.team)
+def _keys(team: Iterable[Participant]) -> frozenset:
+    """Each member as (role, id) and as (role, name): a person with an id on one side and
+    none on the other still matches by name (names on the people list are unique)."""
+    out = set()
+    for m in team:
+        out.add((m.role, m.name.strip().casefold()))
+        if m.person_id is not None:
+            out.add((m.role, m.person_id))
+    return frozenset(out)
+
+
+def _covers(keys: frozenset, person: Participant) -> bool:
+    return ((person.person_id is not None and (person.role, person.person_id) in keys)
+            or (person.role, person.name.strip().casefold()) in keys)
 
 
 def rehearsal_reasons(rig: str, cue_id: int | None, team: Sequence[Participant], rehearsals: Sequence[Rehearsal],
@@ -226,19 +238,20 @@ def rehearsal_reasons(rig: str, cue_id: int | None, team: Sequence[Participant],
     if not team:
         return []
     mine = [r for r in rehearsals if r.rig == rig and r.on <= on_day and (r.cue_id is None or r.cue_id == cue_id)]
+    keys = {r.id: _keys(r.team) for r in mine}
     current = [r for r in mine if (not configuration or not r.configuration or r.configuration == configuration)]
-    if any(all(_covers(r, p) for p in team) for r in current):
+    if any(all(_covers(keys[r.id], p) for p in team) for r in current):
         return []
     fix = (f"rehearse {rig} with {_names(team)} and record it (DGUV Vorschrift 17 §20)")
     if not mine:
         return [Reason(text=f"{rig}: no rehearsal on record for {_names(team)}", limit="rehearsal", fix=fix)]
     latest = max(mine, key=lambda r: (r.on, r.id))
     if configuration and latest.configuration and latest.configuration != configuration and \
-            all(_covers(latest, p) for p in team):
+            all(_covers(keys[latest.id], p) for p in team):
         return [Reason(text=f"{rig}: the rig has changed since it was last rehearsed on {_fmt(latest.on)} "
                             f"(version {latest.configuration[:8]} then, {configuration[:8]} now)",
                        limit="rehearsal", fix=fix)]
-    new = [p for p in team if not _covers(latest, p)]
+    new = [p for p in team if not _covers(keys[latest.id], p)]
     text = (f"{rig}: {_names(new)} not rehearsed with tonight's team: the cast or crew changed since the "
             f"last rehearsal on {_fmt(latest.on)}") if new else (
             f"{rig}: tonight's team has not rehearsed together in this configuration")
@@ -331,20 +344,32 @@ class CueReadiness:
     people_factor: float | None = None
 
 
-def cue_readiness(ctx: CueReadiness) -> list[Reason]:
-    """Return every readiness reason for one rig cue, rule by rule, blocked ones first."""
+def cue_readiness(ctx: CueReadiness, memo: dict | None = None) -> list[Reason]:
+    """Return every readiness reason for one rig cue, rule by rule, blocked ones first.
+
+    :param memo: a dict kept by the caller for one unchanged set of records (a season's
+        verdicts): the inspection rule's reasons depend only on the rig and the day, the
+        equipment rule's only on the rig and the figures, so each is worked out once.
+    """
+    memo = {} if memo is None else memo
     pending = pending_level(ctx.performance_day, ctx.as_of)
     reasons: list[Reason] = []
     reasons += objection_reasons(ctx.objections, ctx.rig, ctx.cue_id)
-    reasons += inspection_reasons(ctx.rig, ctx.rule_set, ctx.inspections, ctx.events, ctx.performance_day)
+    key = ("inspection", ctx.rig, ctx.performance_day)
+    if key not in memo:
+        memo[key] = inspection_reasons(ctx.rig, ctx.rule_set, ctx.inspections, ctx.events, ctx.performance_day)
+    reasons += memo[key]
     if ctx.rule_set.of_kind("before_each_use"):
         reasons += preshow_reasons(ctx.rig, ctx.checklist, ctx.answers, pending)
     reasons += area_release_reasons(ctx.releases, pending)
     reasons += briefing_reasons(ctx.rig, ctx.team, ctx.briefing, pending)
     reasons += rehearsal_reasons(ctx.rig, ctx.cue_id, ctx.team, ctx.rehearsals, ctx.configuration,
                                  ctx.performance_day)
-    reasons += equipment_reasons(ctx.parts, ctx.figures, caution_at=ctx.caution_at,
-                                 people_factor=ctx.people_factor)
+    key = ("equipment", ctx.rig, tuple(sorted(ctx.figures.items())), ctx.caution_at, ctx.people_factor)
+    if key not in memo:
+        memo[key] = equipment_reasons(ctx.parts, ctx.figures, caution_at=ctx.caution_at,
+                                      people_factor=ctx.people_factor)
+    reasons += memo[key]
     return sorted(reasons, key=lambda r: r.level != "blocked")
 
 

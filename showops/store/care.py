@@ -15,7 +15,8 @@ from __future__ import annotations
 import json
 from dataclasses import replace
 from datetime import date, datetime, timezone
-from typing import Any, Callable, Sequence
+from functools import lru_cache
+from typing import Any, Callable, Iterable, Sequence
 
 import sqlite_utils
 
@@ -150,18 +151,6 @@ def rig_version(db: sqlite_utils.Database, rig: str) -> str | None:
     """Return the rig's current version (SHA-256 of its file), or None."""
     row = db.execute("SELECT sha256 FROM rig_version WHERE rig_slug = ? ORDER BY id DESC LIMIT 1", [rig]).fetchone()
     return row[0] if row else None
-
-
-def _rig_model(db: sqlite_utils.Database, rig: str):
-    row = db.execute("SELECT text FROM rig_version WHERE rig_slug = ? ORDER BY id DESC LIMIT 1", [rig]).fetchone()
-    if row is None:
-        return None
-    from showops.rig import parse_rig
-
-    try:
-        return parse_rig(row[0], source=f"{rig} (stored)")
-    except ShowopsError:
-        return None
 
 
 def cue_rig(db: sqlite_utils.Database, cue_id: int) -> str | None:
@@ -848,56 +837,170 @@ def readiness_reasons(db: sqlite_utils.Database, performance_id: int, cue: Any, 
                       as_of: date | None = None) -> list[Reason]:
     """Return every readiness reason for one cue of one performance (the show's verdicts call this).
 
-    :param cue: a :class:`showops.show.model.CueNight` (``cue_id`` and ``rig`` are read;
-        its riders and crew are read from the casting tables), or a cue id.
+    :param cue: a :class:`showops.show.model.CueNight` (``cue_id``, ``rig`` and, when
+        given, ``load`` are read; the riders and crew come from the casting tables), or
+        a cue id.
     :param as_of: the day it is now (default: today, UTC); records made on the night
         block from the performance's day on.
     :returns: reasons with ``limit`` one of ``inspection``, ``preshow``, ``briefing``,
         ``rehearsal``, ``area_release``, ``objection``, ``equipment``; none for a cue
         that uses no rig.
+    :raises NotFound: for a performance or cue that does not exist.
     """
+    snap = _snapshot(db)
     cue_id = cue if isinstance(cue, int) else getattr(cue, "cue_id", None)
-    rig = getattr(cue, "rig", None) if not isinstance(cue, int) else cue_rig(db, cue)
-    if rig is None and cue_id is not None and not isinstance(cue, int):
-        rig = cue_rig(db, cue_id)
+    rig = None if isinstance(cue, int) else getattr(cue, "rig", None)
+    if rig is None and cue_id is not None:
+        if cue_id not in snap.cue_rigs:
+            raise NotFound(f"cue: cue {cue_id} does not exist")
+        rig = snap.cue_rigs[cue_id]
     if not rig:
         return []
-    perf, day = performance_day(db, performance_id)
-    team = cue_team(db, perf, cue_id) if cue_id is not None else ()
+    if performance_id not in snap.perf_days:
+        raise NotFound(f"performance: performance {performance_id} does not exist")
+    team = snap.teams.get((performance_id, cue_id), ())
     if not team and not isinstance(cue, int):
         team = participants_of(cue)
-    ctx = _context(db, perf, day, rig, cue_id, team, as_of or _now().date(), getattr(cue, "load", None))
-    return cue_readiness(ctx)
+    return cue_readiness(snap.context(performance_id, rig, cue_id, team, as_of or _now().date(),
+                                      getattr(cue, "load", None)), snap.memo)
 
 
-def _context(db, perf: int, day: date, rig: str, cue_id: int | None, team, as_of: date, load=None) -> CueReadiness:
-    loaded = checklist(db, rig)
-    model = _rig_model(db, rig)
-    figures: dict = {}
-    if load is None and model is not None:
-        load = _solve_for_team(db, model, team)
-    if load is not None:
-        figures = part_figures(load, model)
-    limits = getattr(model, "limits", None)
-    return CueReadiness(
-        rig=rig, cue_id=cue_id, performance_id=perf, performance_day=day, as_of=as_of, rule_set=rule_set_for(db, rig),
-        team=tuple(team), configuration=rig_version(db, rig), inspections=tuple(inspections(db, rig)),
-        events=tuple(rig_events(db, rig)), checklist=loaded[0] if loaded else None,
-        answers=tuple(preshow_answers(db, perf, rig)), briefing=briefing_for(db, perf, rig),
-        rehearsals=tuple(rehearsals(db, rig)), releases=tuple(area_releases(db, perf)),
-        objections=tuple(objections(db, open_only=True)), parts=tuple(parts(db, rig)), figures=figures,
-        caution_at=float(getattr(limits, "caution_at", 0.8) or 0.8), people_factor=people_factor_of(model))
+class _Snapshot:
+    """Every care record and the casting, read once per state of the database.
+
+    A season's verdicts ask for hundreds of cues; reading the records once and
+    parsing each rig and checklist text once keeps that to milliseconds.
+    """
+
+    def __init__(self, db: sqlite_utils.Database):
+        q = db.execute
+        self.db = db
+        self.perf_days = {i: datetime.fromisoformat(s).date() for i, s in q("SELECT id, starts_at FROM performance")}
+        self.cue_rigs = dict(q("SELECT id, rig_slug FROM cue"))
+        teams: dict[tuple[int, int], list[Participant]] = {}
+        for perf, cue_id, role, pid, name in q(
+                "SELECT c.performance_id, c.cue_id, c.role, p.id, p.name FROM performance_crew c "
+                "JOIN person p ON p.id = c.person_id ORDER BY c.role, p.name"):
+            teams.setdefault((perf, cue_id), []).append(Participant(name, role, pid))
+        for perf, cue_id, pid, name in q("SELECT r.performance_id, r.cue_id, p.id, p.name FROM performance_rider r "
+                                         "JOIN person p ON p.id = r.person_id ORDER BY p.name"):
+            teams.setdefault((perf, cue_id), []).append(Participant(name, "rider", pid))
+        self.teams = {k: tuple(v) for k, v in teams.items()}
+        self.masses = dict(q("SELECT person_id, mass_kg FROM performer"))
+        self.rig_texts = {slug: (sha, text) for slug, sha, text in q(
+            "SELECT rig_slug, sha256, text FROM rig_version WHERE id IN (SELECT MAX(id) FROM rig_version "
+            "GROUP BY rig_slug)")}
+        self.inspections = _group(inspections(db), lambda i: i.rig)
+        self.events = _group(rig_events(db), lambda e: e.rig)
+        self.rehearsals = _group(rehearsals(db), lambda r: r.rig)
+        self.parts = _group(parts(db), lambda p: p.rig)
+        self.objections = tuple(objections(db, open_only=True))
+        self.checklists = {rig: (text, version, source) for rig, text, version, source in q(
+            "SELECT rig, text, version, source FROM care_checklist WHERE id IN (SELECT MAX(id) FROM care_checklist "
+            "GROUP BY rig)")}
+        self.answers = _group(
+            (PreshowAnswer(i, p, r, k, o, res, Person(pn, pid), _as_utc(at)) for i, p, r, k, o, res, pid, pn, at in q(
+                "SELECT id, performance_id, rig, item_key, observation, result, person_id, person_name, at_utc "
+                "FROM care_preshow_answer ORDER BY at_utc, id")), lambda a: (a.performance_id, a.rig))
+        attendance = _group(q("SELECT briefing_id, person_id, person_name FROM care_briefing_attendance ORDER BY id"),
+                            lambda row: row[0])
+        self.briefings = {}
+        for bid, perf, rig, gid, gname, at in q("SELECT id, performance_id, rig, given_by_id, given_by_name, at_utc "
+                                                "FROM care_briefing ORDER BY id"):
+            self.briefings[(perf, rig)] = Briefing(bid, perf, rig, Person(gname, gid), _as_utc(at),
+                                                   tuple(Person(n, i) for _, i, n in attendance.get(bid, ())))
+        self.releases = _group((AreaRelease(i, p, Person(n, pid), role, _as_utc(at), note)
+                                for i, p, pid, n, role, at, note in q(
+                                    "SELECT id, performance_id, person_id, person_name, role, at_utc, note "
+                                    "FROM care_area_release ORDER BY id")), lambda r: r.performance_id)
+        self.rule_sets: dict[str, RuleSet] = {}
+        self.solves: dict[tuple, dict | None] = {}
+        self.memo: dict = {}
+
+    def rule_set(self, rig: str) -> RuleSet:
+        if rig not in self.rule_sets:
+            self.rule_sets[rig] = rule_set_for(self.db, rig)
+        return self.rule_sets[rig]
+
+    def model(self, rig: str):
+        found = self.rig_texts.get(rig)
+        return _parsed_rig(found[1], rig) if found else None
+
+    def context(self, perf: int, rig: str, cue_id: int | None, team, as_of: date, load=None) -> CueReadiness:
+        model = self.model(rig)
+        if load is None and model is not None:
+            masses = tuple(sorted(self.masses[p.person_id] for p in team
+                                  if p.role == "rider" and p.person_id in self.masses))
+            if (rig, masses) not in self.solves:
+                self.solves[(rig, masses)] = _solve(model, masses)
+            load = self.solves[(rig, masses)]
+        figures = part_figures(load, model) if load is not None else {}
+        limits = getattr(model, "limits", None)
+        found = self.checklists.get(rig)
+        items = _parsed_checklist(found[0], found[2]) if found else None
+        return CueReadiness(
+            rig=rig, cue_id=cue_id, performance_id=perf, performance_day=self.perf_days[perf], as_of=as_of,
+            rule_set=self.rule_set(rig), team=tuple(team),
+            configuration=self.rig_texts[rig][0] if rig in self.rig_texts else None,
+            inspections=tuple(self.inspections.get(rig, ())), events=tuple(self.events.get(rig, ())),
+            checklist=items, answers=tuple(self.answers.get((perf, rig), ())),
+            briefing=self.briefings.get((perf, rig)), rehearsals=tuple(self.rehearsals.get(rig, ())),
+            releases=tuple(self.releases.get(perf, ())), objections=self.objections,
+            parts=tuple(self.parts.get(rig, ())), figures=figures,
+            caution_at=float(getattr(limits, "caution_at", 0.8) or 0.8), people_factor=people_factor_of(model))
 
 
-def _solve_for_team(db, model, team) -> dict | None:
-    """Solve the rig for the team's riders (masses stay here: only figures leave)."""
-    ids = [p.person_id for p in team if p.role == "rider" and p.person_id is not None]
-    masses = [r[0] for r in (db.execute("SELECT mass_kg FROM performer WHERE person_id = ?", [i]).fetchone()
-                             for i in ids) if r]
+def _group(items: Iterable, key) -> dict:
+    out: dict = {}
+    for item in items:
+        out.setdefault(key(item), []).append(item)
+    return out
+
+
+_SNAPSHOTS: dict[int, tuple[tuple[int, int], _Snapshot]] = {}
+
+
+def _snapshot(db: sqlite_utils.Database) -> _Snapshot:
+    """Return the records as they are now, re-read only when the database has changed.
+
+    ``PRAGMA data_version`` changes when another connection commits; the connection's
+    ``total_changes`` when this one writes. Together they say whether anything changed.
+    """
+    conn = db.conn
+    state = (conn.execute("PRAGMA data_version").fetchone()[0], conn.total_changes)
+    cached = _SNAPSHOTS.get(id(conn))
+    if cached is not None and cached[0] == state and cached[1].db is db:
+        return cached[1]
+    snap = _Snapshot(db)
+    if len(_SNAPSHOTS) > 32:
+        _SNAPSHOTS.clear()
+    _SNAPSHOTS[id(conn)] = (state, snap)
+    return snap
+
+
+@lru_cache(maxsize=64)
+def _parsed_rig(text: str, slug: str):
+    from showops.rig import parse_rig
+
+    try:
+        return parse_rig(text, source=f"{slug} (stored)")
+    except ShowopsError:
+        return None
+
+
+@lru_cache(maxsize=64)
+def _parsed_checklist(text: str, source: str) -> tuple[ChecklistItem, ...] | None:
+    try:
+        return checklist_items(parse_checklist(text, source))
+    except ShowopsError:
+        return None
+
+
+def _solve(model, masses) -> dict | None:
     from showops.rig import solve_rig
 
     try:
-        return solve_rig(model, masses).to_dict()
+        return solve_rig(model, list(masses)).to_dict()
     except ShowopsError:
         return None
 
@@ -1122,3 +1225,23 @@ def seed_demo_care(db: sqlite_utils.Database, demo_ids: Any, today: date, *, fol
                           reason="clamp replaced by a bolted bracket; handrail held a 100 kg push")
         notes.append("care: one safety objection raised and resolved")
     return notes
+
+
+def performance_readiness(db: sqlite_utils.Database, performance_id: int, *,
+                          as_of: date | None = None) -> list[Reason]:
+    """Return the readiness reasons of every rig cue of a performance, each once, blocked
+    first: the lines a crew sheet's cover lists under "Rig readiness".
+
+    :raises NotFound: for a performance that does not exist.
+    """
+    snap = _snapshot(db)
+    if performance_id not in snap.perf_days:
+        raise NotFound(f"performance: performance {performance_id} does not exist")
+    out: list[Reason] = []
+    for (cue_id,) in db.execute("SELECT c.id FROM cue c JOIN performance p ON p.production_id = c.production_id "
+                                "WHERE p.id = ? AND c.rig_slug IS NOT NULL ORDER BY c.position, c.id",
+                                [performance_id]).fetchall():
+        for reason in readiness_reasons(db, performance_id, cue_id, as_of=as_of):
+            if reason not in out:
+                out.append(reason)
+    return sorted(out, key=lambda r: r.level != "blocked")

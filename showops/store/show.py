@@ -495,10 +495,12 @@ class _Season:
                            readiness=readiness)
             cues.append(cue)
         pool = tuple(sorted(self.crew.values(), key=lambda c: c.name))
+        # Rig care's lines for the sheet's cover (each rig's reasons once), when installed.
+        cover = _care_hook(self.db, "performance_readiness") if self.readiness is not None else None
         return PerformanceInput(performance_id=perf_id, production=production, company=company,
                                 venue=self.venues[venue_id], starts_at=datetime.fromisoformat(starts_at),
                                 stage_manager=self.names.get(sm) if sm else None, cues=tuple(cues),
-                                crew_pool=pool)
+                                crew_pool=pool, readiness=tuple(cover(self.db, perf_id)) if cover else ())
 
 
 @functools.lru_cache(maxsize=32)
