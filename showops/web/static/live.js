@@ -376,7 +376,7 @@
     }
     if (a.why) { why.hidden = false; why.textContent = a.why; }
     button.hidden = false;
-    button.textContent = a.button;
+    button.textContent = unsentFor(a.kind, a.step) ? "SENDING…" : a.button;
     button.disabled = !a.enabled;
     button.setAttribute("data-kind", a.kind);
     button.setAttribute("data-step", a.step || "");
