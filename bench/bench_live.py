@@ -153,6 +153,19 @@ def saturation(devices: list[BenchDevice], seconds: float) -> tuple[int, float, 
     return sum(counts), time.monotonic() - t0, latencies
 
 
+def cpu_seconds(pid: int) -> float:
+    """User + system CPU time of a process so far (Linux /proc; proc(5): fields 14, 15)."""
+    fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+    return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
+
+def load_average() -> str:
+    try:
+        return Path("/proc/loadavg").read_text().split()[0]
+    except OSError:
+        return "?"
+
+
 def raw_commit_rate(folder: Path, seconds: float) -> float:
     """Rows per second, one INSERT per committed transaction, WAL, synchronous=FULL."""
     path = folder / "raw_commit_bench.db"
@@ -217,7 +230,7 @@ def main() -> None:
     probe = HttpDevice(server.port, timeout=1)
     for _ in range(400):
         try:
-            if probe.get("/api/openapi.json")[0] == 200:
+            if probe.get("/api/openapi.json")[0] == 401:  # up and answering (not signed in)
                 break
         except (Offline, ValueError):
             time.sleep(0.05)
@@ -226,9 +239,14 @@ def main() -> None:
         show_devices = [BenchDevice(n, server.port) for n in range(1, 33)]
         for d in show_devices[:4]:
             d.poll()  # warm the server's plan cache and connections
+        load_before = load_average()
+        cpu0 = cpu_seconds(server.proc.pid)
         polls, confirms = show_like(show_devices, args.seconds, seed=5)
+        cpu1 = cpu_seconds(server.proc.pid)
         sat_devices = [BenchDevice(n, server.port) for n in range(33, 41)]
+        cpu2 = cpu_seconds(server.proc.pid)
         done, took, sat_lat = saturation(sat_devices, args.saturation_seconds)
+        cpu3 = cpu_seconds(server.proc.pid)
     finally:
         server.stop()
     raw = raw_commit_rate(folder, 3.0)
@@ -237,7 +255,8 @@ def main() -> None:
 
     rate = done / took
     ms = 1000.0
-    print(f"showops live bench (loopback, waitress threads={args.threads}, cpus={os.cpu_count()})")
+    print(f"showops live bench (loopback, waitress threads={args.threads}, cpus={os.cpu_count()}, "
+          f"load average before {load_before}: other work on the machine inflates every latency)")
     print(f"(1) show-like load: 32 devices, poll 1/s + confirm every 2 s, {args.seconds:.0f} s")
     print(f"    polls:         n={len(polls):5d}  p50 {pct(polls, 50) * ms:6.1f} ms  p99 {pct(polls, 99) * ms:6.1f} ms"
           f"  (goal p99 < 50 ms)")
@@ -249,6 +268,8 @@ def main() -> None:
     print(f"    ratio (2)/(3): {rate / raw:.2f}  (goal >= 0.5)")
     print(f"log: {acked} acknowledged, {bad} lost or duplicated, chain {'verifies' if chain_ok else 'BROKEN'}, "
           f"{len(errors)} errors" + (f" (first: {errors[0]})" if errors else ""))
+    print(f"server CPU: {1000 * (cpu1 - cpu0) / max(1, len(polls) + len(confirms)):.1f} ms per request under "
+          f"the show-like load, {1000 * (cpu3 - cpu2) / max(1, done):.1f} ms per confirmation at saturation")
     print(f"    median poll/confirm over the run: {statistics.median(polls) * ms:.1f} / "
           f"{statistics.median(confirms) * ms:.1f} ms")
 

@@ -30,9 +30,11 @@ def instance(tmp_path):
 @pytest.fixture
 def app(instance):
     from showops.web import close_stores, create_app
+    from showops.web.areas.api import close_live
 
     application = create_app({"INSTANCE": str(instance), "TESTING": True})
     yield application
+    close_live(application)
     close_stores(application)
 
 

@@ -249,7 +249,7 @@ def scan(rows: Iterable[Mapping], procedures: Mapping[str, ProcedureFacts], *,
             cls = refusal_class(detail)
             reason = detail.get("reason") or detail.get("message") or cls.replace("_", " ")
             add(Deviation("refused_attempt", pid, cid, row.get("step_key"), (rid,), at,
-                          f"{row.get('person_name') or '?'} ({row.get('role') or '?'}) refused: {reason}",
+                          f"{row.get('person_name') or '?'}" + (f" ({row['role']})" if row.get('role') else "") + f" refused: {reason}",
                           {"class": cls}))
             continue
         if event == "hold":

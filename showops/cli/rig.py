@@ -136,3 +136,40 @@ def advise(rig_file: Path, riders: str, as_json: bool) -> None:
         for reason in advice.result.reasons:
             click.echo(f"  - [{reason.level}] {reason.text}")
     echo_caution()
+
+
+@rig.command("sweep")
+@click.argument("rig_file", type=click.Path(path_type=Path))
+@click.option("--riders", help="Each rider's mass, comma-separated (kg unless a unit is given).")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
+              help="Folder for the CSV files and the plot (created if missing).")
+@click.option("--points", default=201, show_default=True, type=click.IntRange(2, 100_000),
+              help="Points in each sweep.")
+def sweep(rig_file: Path, riders: str | None, out_dir: Path, points: int) -> None:
+    """Sweep RIG_FILE (a parallel-linkage lift): pull and stand moment against handle
+    position, and the frame solve over the stroke, as CSV files and a PNG plot.
+
+    \b
+    Example:
+      showops rig sweep procedures/rigs/orchard-lift.toml --riders 58,64 --out sweeps/
+    """
+    from showops.rig import sweep as sweeps
+
+    model = load_rig(rig_file)
+    masses = parse_riders(riders)
+    by_handle = sweeps.sweep_handle(model, masses, points=points)
+    by_angle = sweeps.sweep_angle(model, masses, points=points)
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise ValidationError("--out", f"cannot create {str(out_dir)!r} ({exc.strerror or exc})") from None
+    stem = rig_file.stem
+    written = [
+        sweeps.write_csv(by_handle, out_dir / f"{stem}-handle.csv"),
+        sweeps.write_csv(by_angle, out_dir / f"{stem}-stroke.csv"),
+        sweeps.plot_sweeps(model, by_handle, by_angle, out_dir / f"{stem}-sweep.png",
+                           sweeps.riders_label(masses)),
+    ]
+    for path in written:
+        click.echo(f"wrote {path}")
+    echo_caution()

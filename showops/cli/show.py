@@ -60,9 +60,10 @@ def demo(instance: Path, force: bool) -> None:
         else:
             db.conn.close()
     db = open_db(instance)
-    ids = store.install_demo(db, date.today())
-    seed_care = store._care_hook(db, "seed_demo_care")  # rig care's records (examinations, checks ...)
-    care_lines = seed_care(db, ids, date.today()) if seed_care is not None else []
+    from showops.store.demo import build_demo
+
+    report = build_demo(db, date.today())
+    ids = report.ids
     plans = store.night_plans(db)
     db.conn.close()
 
@@ -79,8 +80,13 @@ def demo(instance: Path, force: bool) -> None:
         click.echo("    " + _summary_line(plan))
     for line in ids.skipped:
         click.echo(f"  not installed: {line}")
-    for line in care_lines:
+    for line in report.notes:
         click.echo(f"  {line}")
+    if report.users:
+        click.echo("  Sign-ins (demo only; change them before real use):")
+        for user in report.users:
+            pin = f", PIN {user['pin']}" if user.get("pin") else ""
+            click.echo(f"    {user['username']:<10} {user['role']:<14} {user['name']}{pin}")
     heavy = next(p for p in plans if p.performance_id == ids.heavy_performance)
     click.echo("")
     click.echo("Next:")

@@ -30,6 +30,7 @@ order with a challenge and a response: FAA AC 120-71 (standard operating procedu
 from __future__ import annotations
 
 import json
+from functools import lru_cache
 from dataclasses import dataclass, field, replace
 from datetime import datetime, timezone
 from typing import Any, Iterable, Literal, Mapping, Sequence
@@ -589,6 +590,7 @@ def _who(pair: tuple[int | None, str] | None) -> dict | None:
     return {"person_id": pair[0], "name": pair[1]} if pair else None
 
 
+@lru_cache(maxsize=8192)
 def _iso(at: datetime | None) -> str | None:
     return at.astimezone(timezone.utc).isoformat(timespec="milliseconds") if at else None
 

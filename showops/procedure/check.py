@@ -30,6 +30,7 @@ from showops.procedure.parse import STATE_WORDS, state_problem
 from showops.procedure.render import (
     bind_placeholder,
     check_placeholder,
+    complete_context,
     find_placeholders,
     find_statements,
     find_unclosed,
@@ -621,16 +622,21 @@ def check_procedure(procedure: Procedure, *, rig_result: Any = None, context: Ma
     :param rig_result: the rig solver's result (or its ``to_dict()``) for tonight's
         riders; without it the load is taken as ok and the empty platform as rising.
     :param context: the values placeholders are bound to (see
-        :func:`~showops.procedure.render.render_context`); without it placeholders are
-        checked against the names that can be bound.
+        :func:`~showops.procedure.render.render_context`); every role of the procedure
+        counts as bound (an empty list where nobody is cast) and ``load`` defaults to
+        ``rig_result``. Without it, placeholders are checked against the names that
+        can be bound.
     :param rig_slug: the slug of the rig file checked against; a finding when it is not
         the procedure's ``Rig:``.
     :returns: the findings sorted by line then rule; empty when the procedure is clean.
     """
     load_keys = None
+    data = None
     if rig_result is not None:
         data = rig_result if isinstance(rig_result, Mapping) else rig_result.to_dict()
         load_keys = tuple(data)
+    if context is not None:
+        context = complete_context(context, roles=procedure.roles, load=data)
     run = CheckRun(procedure, Physics.from_result(rig_result), context=context, load_keys=load_keys,
                    rig_slug=rig_slug)
     findings: list[Finding] = []

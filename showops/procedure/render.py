@@ -68,9 +68,16 @@ ANY = _Any()
 
 
 class CrewNames(list):
-    """The people in one role: renders as ``"Ana, Ben"`` and still works with ``join``."""
+    """The people in one role: renders as ``"Ana, Ben"`` (or, visibly, that nobody is
+    cast in it) and still works with ``join`` and ``length``."""
+
+    def __init__(self, names: Iterable[str] = (), role: str = ""):
+        super().__init__(names)
+        self.role = role
 
     def __str__(self) -> str:
+        if not self:
+            return f"[nobody cast as {self.role or 'this role'}]"
         return ", ".join(str(name) for name in self)
 
 
@@ -178,12 +185,28 @@ def render_context(*, load: Mapping[str, Any] | None = None, riders: Iterable[st
     if load is not None:
         context["load"] = dict(load)
     if crew is not None:
-        context["crew"] = {role: CrewNames(names) for role, names in crew.items()}
+        context["crew"] = {role: CrewNames(names, role=role) for role, names in crew.items()}
     if performance is not None:
         context["performance"] = performance
     if cue is not None:
         context["cue"] = cue
     return context
+
+
+def complete_context(context: Mapping[str, Any], *, roles: Iterable[str] = (),
+                     load: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """Return ``context`` made whole: every role of the procedure bound (an empty list
+    where nobody is cast), crew lists rendered as names, and ``load`` taken from the
+    rig result when the caller did not bind it."""
+    out = dict(context)
+    crew = {role: CrewNames(role=role) for role in roles}
+    for role, names in dict(out.get("crew") or {}).items():
+        crew[role] = CrewNames([names] if isinstance(names, str) else list(names or ()), role=str(role))
+    out["crew"] = crew
+    out.setdefault("riders", [])
+    if "load" not in out and load is not None:
+        out["load"] = dict(load)
+    return out
 
 
 def check_placeholder(expression: str, bound: Mapping[str, Any]) -> PlaceholderProblem | None:
@@ -344,7 +367,7 @@ def render_procedure_html(procedure: Procedure, context: Mapping[str, Any] | Non
         ``performance``, ``cue``); a name that is missing renders as "[not bound: …]".
     :returns: HTML with the header (rig, roles, signal), the body and the caution.
     """
-    context = dict(context or {})
+    context = complete_context(context or {}, roles=procedure.roles)
     lines = split_lines(procedure.text)
     body = "\n".join(lines[header_block_end(lines):])
     pieces: list[str] = []

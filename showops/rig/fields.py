@@ -14,6 +14,19 @@ from showops.errors import RigFileError, UnitError
 from showops.units import Dimension, to_si
 
 
+#: Magnitudes beyond any hand-worked stage machine, per dimension (SI): a value past
+#: these is a typo or a wrong unit, and would only make nonsense (or overflow) later.
+#: Chosen generously (common practice, no source).
+PLAUSIBLE_MAX: dict[str, float] = {
+    "length": 100.0, "mass": 100_000.0, "force": 1e7, "moment": 1e7, "pressure": 1e13,
+    "area": 10.0, "second_moment": 1.0, "linear_mass": 10_000.0, "dimensionless": 1e6,
+    "time": 1e7, "speed": 100.0,
+}
+#: The smallest sensible positive value of a section property: no structural material
+#: is softer than 1 MPa, no member thinner than 0.01 mm² or stiffer-free than 1e-14 m⁴.
+PLAUSIBLE_MIN: dict[str, float] = {"pressure": 1e6, "area": 1e-8, "second_moment": 1e-14}
+
+
 class TableReader:
     """Take fields out of one table; :meth:`finish` rejects any key left unread.
 
@@ -68,6 +81,7 @@ class TableReader:
             raise RigFileError(self.source, None, str(exc)) from None
         if positive and not number > 0:
             raise self.error(name, f"must be greater than zero, got {value!r}")
+        _plausible(self, name, value, number, dimension)
         if nonnegative and not number >= 0:
             raise self.error(name, f"must be zero or more, got {value!r}")
         if negative and not number < 0:
@@ -124,6 +138,7 @@ class TableReader:
             if positive and not number > 0:
                 raise RigFileError(self.source, f"{self.key(name)}[{i + 1}]",
                                    f"must be greater than zero, got {value!r}")
+            _plausible(self, f"{name}[{i + 1}]", value, number, dimension)
             out.append(number)
         return tuple(out)
 
@@ -147,6 +162,18 @@ class TableReader:
         for name in self.table:
             if name not in self.used:
                 raise self.error(name, "unknown key (check the spelling against docs/rig-file.md)")
+
+
+def _plausible(table: "TableReader", name: str, value: Any, number: float, dimension: str) -> None:
+    """Raise for a magnitude no stage machine has (see :data:`PLAUSIBLE_MAX`)."""
+    top = PLAUSIBLE_MAX.get(dimension)
+    if top is not None and abs(number) > top:
+        raise table.error(name, f"{value!r} is beyond any stage machine (at most {top:g} in SI units for a "
+                                f"{dimension.replace('_', ' ')}); check the number and its unit")
+    bottom = PLAUSIBLE_MIN.get(dimension)
+    if bottom is not None and 0 < abs(number) < bottom:
+        raise table.error(name, f"{value!r} is too small for a {dimension.replace('_', ' ')} "
+                                f"(at least {bottom:g} in SI units); check the number and its unit")
 
 
 def _kind(value: Any) -> str:

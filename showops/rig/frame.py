@@ -24,6 +24,7 @@ it sags (the member's ``+y`` face in compression, as for a beam drawn left to ri
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Sequence
 
 import numpy as np
@@ -203,6 +204,7 @@ class _Plan:
     scatter: np.ndarray     # (members * 36,) flat index into the (ndof * ndof) matrix
 
 
+@lru_cache(maxsize=64)
 def _plan(model: FrameModel) -> _Plan:
     n = len(model.node_names)
     m = len(model.members)
@@ -305,6 +307,15 @@ def solve_frame_batch(model: FrameModel, coords_m: np.ndarray,
         message names a node and freedom that moves), a loose node, a zero-length
         member, a point load beyond its member's end, or a moment at a hinge.
     """
+    with np.errstate(over="raise", invalid="raise", divide="raise"):
+        try:
+            return _solve_batch(model, coords_m, load_scale)
+        except (FloatingPointError, np.linalg.LinAlgError):
+            raise FrameModelError("the frame's numbers are out of range (a section, length or load far "
+                                  "beyond a stage machine): check the sections and units") from None
+
+
+def _solve_batch(model: FrameModel, coords_m, load_scale) -> FrameSolution:
     plan = _plan(model)
     coords = np.asarray(coords_m, dtype=float)
     batch = coords.shape[0]
@@ -319,9 +330,64 @@ def solve_frame_batch(model: FrameModel, coords_m: np.ndarray,
     c = d[..., 0] / length
     s = d[..., 1] / length
     scale = np.ones(batch) if load_scale is None else np.asarray(load_scale, dtype=float)
+    # Members whose length and direction are the same in every geometry of the batch
+    # (a rig's bracket and arms as the beams swing) are assembled once.
+    tol = 1e-12
+    steady = ((np.ptp(length, axis=0) <= tol * length.max()) & (np.ptp(c, axis=0) <= tol)
+              & (np.ptp(s, axis=0) <= tol))
 
-    # Fixed-end forces (forces of the nodes on a member held fixed at both ends), member axes.
-    q = np.zeros((batch, n_mem, 6))
+    q, local_loads = _fixed_end_forces(model, batch, length, c, s, scale)
+
+    same_length = bool((np.ptp(length, axis=0) <= tol * length.max()).all())
+    k = _local_stiffness(plan.e, plan.a, plan.i, length[:1] if same_length else length)
+    k, q = _condense(k, q, plan.rel_start, 2)
+    k, q = _condense(k, q, plan.rel_end, 5)
+
+    # Freedoms that only steady members touch are condensed out once (see _solve_free).
+    touched = np.zeros(plan.n_nodes, dtype=bool)
+    touched[plan.starts[~steady]] = True
+    touched[plan.ends[~steady]] = True
+    inner = np.flatnonzero(~touched[plan.free // 3])
+    outer = np.flatnonzero(touched[plan.free // 3])
+    split = batch > 1 and inner.size > 0 and outer.size > 0
+    k_const, k_var = _assemble(plan, k, c, s, steady, batch, outer if split else None)
+    loads = np.zeros((batch, ndof))
+    for load in model.node_loads:
+        loads[:, 3 * load.node: 3 * load.node + 3] += np.array([load.fx_n, load.fy_n, load.mz_nm]) * scale[:, None]
+    qg = _to_global(q, c, s)                                         # (B, m, 6)
+    flat_f = (np.arange(batch)[:, None] * ndof + plan.dof_map.reshape(-1)[None, :]).reshape(-1)
+    member_loads = np.bincount(flat_f, weights=qg.reshape(-1), minlength=batch * ndof).reshape(batch, ndof)
+    rhs = loads - member_loads
+
+    disp = np.zeros((batch, ndof))
+    f = rhs[:, plan.free]
+    solved = _solve_condensed(model, plan.free, k_const, k_var, f, inner, outer) if split else None
+    if solved is not None:
+        disp[:, plan.free[inner]], disp[:, plan.free[outer]] = solved
+    else:
+        if split:   # the constant part alone is singular: solve whole to name the mechanism
+            k_const, k_var = _assemble(plan, k, c, s, steady, batch)
+        k_ff = k_const[None] if k_var is None else k_var + k_const
+        disp[:, plan.free] = _cholesky_solve(model, plan.free, np.broadcast_to(k_ff, (batch,) + k_ff.shape[1:]), f)
+
+    d_local = _to_local(disp[:, plan.dof_map], c, s)                 # (B, m, 6)
+    if k.shape[0] == 1:
+        end_forces = np.einsum("mij,bmj->bmi", k[0], d_local) + q
+    else:
+        end_forces = np.einsum("bmij,bmj->bmi", k, d_local) + q
+    # Node equilibrium: support reaction = Σ forces of the node on its members - applied load.
+    on_members = np.bincount(flat_f, weights=_to_global(end_forces, c, s).reshape(-1),
+                             minlength=batch * ndof).reshape(batch, ndof)
+    reactions = np.zeros((batch, ndof))
+    if plan.held.size:
+        reactions[:, plan.held] = on_members[:, plan.held] - loads[:, plan.held]
+    return FrameSolution(model, disp.reshape(batch, -1, 3), reactions.reshape(batch, -1, 3),
+                         end_forces, length, c, s, local_loads)
+
+
+def _fixed_end_forces(model: FrameModel, batch: int, length, c, s, scale):
+    """Return fixed-end forces ``(B, m, 6)`` in member axes and the loads for internal forces."""
+    q = np.zeros((batch, len(model.members), 6))
     local_loads: dict = {}
     for load in model.point_loads:
         mi = load.member
@@ -352,75 +418,179 @@ def solve_frame_batch(model: FrameModel, coords_m: np.ndarray,
         q[:, mi, 2] -= wy * length_i ** 2 / 12
         q[:, mi, 5] += wy * length_i ** 2 / 12
         local_loads.setdefault(("uniform", mi), []).append((wx, wy))
+    return q, local_loads
 
-    k = _local_stiffness(plan.e, plan.a, plan.i, length)
-    k, q = _condense(k, q, plan.rel_start, 2)
-    k, q = _condense(k, q, plan.rel_end, 5)
 
-    # Rotation to global axes: local = t @ global.
-    t = np.zeros((batch, n_mem, 6, 6))
+def _rotation(c, s):
+    """Return the member rotation matrices ``t`` (local = t @ global), shape ``c.shape + (6, 6)``."""
+    t = np.zeros(c.shape + (6, 6))
     for o in (0, 3):
         t[..., o, o] = t[..., o + 1, o + 1] = c
         t[..., o, o + 1] = s
         t[..., o + 1, o] = -s
         t[..., o + 2, o + 2] = 1.0
-    kg = np.swapaxes(t, -1, -2) @ k @ t                               # (B, m, 6, 6)
-    qg = (np.swapaxes(t, -1, -2) @ q[..., None])[..., 0]              # (B, m, 6)
-
-    flat = (np.arange(batch)[:, None] * ndof * ndof + plan.scatter[None, :]).reshape(-1)
-    big_k = np.bincount(flat, weights=kg.reshape(-1), minlength=batch * ndof * ndof).reshape(batch, ndof, ndof)
-    loads = np.zeros((batch, ndof))
-    for load in model.node_loads:
-        loads[:, 3 * load.node: 3 * load.node + 3] += np.array([load.fx_n, load.fy_n, load.mz_nm]) * scale[:, None]
-    flat_f = (np.arange(batch)[:, None] * ndof + plan.dof_map.reshape(-1)[None, :]).reshape(-1)
-    member_loads = np.bincount(flat_f, weights=qg.reshape(-1), minlength=batch * ndof).reshape(batch, ndof)
-    rhs = loads - member_loads
-
-    free = plan.free
-    kff = big_k[:, free[:, None], free[None, :]]
-    diag = np.einsum("bii->bi", kff)
-    _check_mechanism(model, plan, kff, diag)
-    scale_d = 1.0 / np.sqrt(diag)
-    kff_s = kff * scale_d[:, :, None] * scale_d[:, None, :]
-    y = np.linalg.solve(kff_s, (rhs[:, free] * scale_d)[..., None])[..., 0]
-    disp = np.zeros((batch, ndof))
-    disp[:, free] = y * scale_d
-
-    reactions = np.zeros((batch, ndof))
-    if plan.held.size:
-        reactions[:, plan.held] = (np.einsum("bij,bj->bi", big_k[:, plan.held, :], disp)
-                                   - rhs[:, plan.held])
-    d_local = (t @ disp[:, plan.dof_map][..., None])[..., 0]          # (B, m, 6)
-    end_forces = (k @ d_local[..., None])[..., 0] + q
-    return FrameSolution(model, disp.reshape(batch, -1, 3), reactions.reshape(batch, -1, 3),
-                         end_forces, length, c, s, local_loads)
+    return t
 
 
-def _check_mechanism(model: FrameModel, plan: _Plan, kff: np.ndarray, diag: np.ndarray) -> None:
-    """Raise :class:`FrameModelError` when the free stiffness matrix is singular."""
-    if kff.shape[1] == 0:
-        return
+def _to_global(v, c, s):
+    """Rotate member-axis vectors ``(B, m, 6)`` to global axes."""
+    out = np.empty_like(v)
+    for o in (0, 3):
+        out[..., o] = c * v[..., o] - s * v[..., o + 1]
+        out[..., o + 1] = s * v[..., o] + c * v[..., o + 1]
+        out[..., o + 2] = v[..., o + 2]
+    return out
+
+
+def _to_local(v, c, s):
+    """Rotate global vectors ``(B, m, 6)`` to member axes."""
+    out = np.empty_like(v)
+    for o in (0, 3):
+        out[..., o] = c * v[..., o] + s * v[..., o + 1]
+        out[..., o + 1] = -s * v[..., o] + c * v[..., o + 1]
+        out[..., o + 2] = v[..., o + 2]
+    return out
+
+
+def _assemble(plan: _Plan, k, c, s, steady, batch: int, outer: np.ndarray | None = None):
+    """Return the stiffness of the free freedoms as (constant part, varying part).
+
+    The constant part ``(nf, nf)`` holds the steady members (transformed and scattered
+    once); the varying part ``(B, n, n)`` the others, per geometry, over the freedoms
+    ``outer`` (indices into the free ones; all of them when ``None``), or ``None`` when
+    every member is steady. Only the free block is ever needed: reactions come from
+    the member end forces.
+    """
+    nf = plan.free.size
+    pos = np.full(3 * plan.n_nodes, -1)
+    pos[plan.free] = np.arange(nf)
+    idx_s = np.flatnonzero(steady)
+    idx_v = np.flatnonzero(~steady)
+    kb0 = k[0]
+    rows = pos[plan.dof_map][:, :, None]
+    cols = pos[plan.dof_map][:, None, :]
+    keep = ((rows >= 0) & (cols >= 0)).reshape(len(steady), 36)
+    target = (rows * nf + cols).reshape(len(steady), 36)
+    t_s = _rotation(c[0, idx_s], s[0, idx_s])
+    kg_s = (np.swapaxes(t_s, -1, -2) @ kb0[idx_s] @ t_s).reshape(-1, 36)
+    k_const = np.bincount(target[idx_s][keep[idx_s]], weights=kg_s[keep[idx_s]],
+                          minlength=nf * nf).reshape(nf, nf)
+    if idx_v.size == 0:
+        return k_const, None
+    if outer is not None:
+        opos = np.full(nf + 1, -1)
+        opos[outer] = np.arange(outer.size)
+        sub = opos[np.where(pos[plan.dof_map] >= 0, pos[plan.dof_map], nf)]
+        n = outer.size
+        rows, cols = sub[:, :, None], sub[:, None, :]
+        keep = ((rows >= 0) & (cols >= 0)).reshape(len(steady), 36)
+        target = (rows * n + cols).reshape(len(steady), 36)
+    else:
+        n = nf
+    if k.shape[0] == 1:
+        kg_v = _rotate_fixed(kb0[idx_v], c[:, idx_v], s[:, idx_v])
+    else:
+        t_v = _rotation(c[:, idx_v], s[:, idx_v])
+        kg_v = np.swapaxes(t_v, -1, -2) @ k[:, idx_v] @ t_v
+    kv = keep[idx_v].reshape(-1)
+    weights = kg_v.reshape(batch, -1)[:, kv]
+    flat = (np.arange(batch)[:, None] * n * n + target[idx_v].reshape(-1)[kv][None, :]).reshape(-1)
+    k_var = np.bincount(flat, weights=weights.reshape(-1), minlength=batch * n * n).reshape(batch, n, n)
+    return k_const, k_var
+
+
+#: t = c·_TC + s·_TS + _T1 (the rotation matrix's three constant parts)
+_TC = _rotation(np.ones(()), np.zeros(()))
+_TC[2, 2] = _TC[5, 5] = 0.0
+_TS = _rotation(np.zeros(()), np.ones(()))
+_TS[2, 2] = _TS[5, 5] = 0.0
+_T1 = np.zeros((6, 6))
+_T1[2, 2] = _T1[5, 5] = 1.0
+
+
+def _rotate_fixed(k, c, s):
+    """Return ``tᵀ k t`` for members of fixed local stiffness ``k`` (m, 6, 6) over a batch of (c, s).
+
+    With ``t = c·Tc + s·Ts + T1``, ``tᵀ k t`` is a fixed combination of six matrices
+    weighted by c², s², c·s, c, s and 1: one small matrix product per member instead
+    of two 6 x 6 products per member and geometry.
+    """
+    parts = []
+    for a_, b_ in ((_TC, _TC), (_TS, _TS), (_T1, _T1)):
+        parts.append(a_.T @ k @ b_)
+    cross = [(_TC, _TS), (_TC, _T1), (_TS, _T1)]
+    for a_, b_ in cross:
+        parts.append(a_.T @ k @ b_ + b_.T @ k @ a_)
+    basis = np.stack(parts, axis=1).reshape(k.shape[0], 6, 36)        # (m, 6, 36)
+    coef = np.stack([c * c, s * s, np.ones_like(c), c * s, c, s], axis=-1)   # (B, m, 6)
+    out = np.matmul(np.swapaxes(coef, 0, 1), basis)                   # (m, B, 36)
+    return np.swapaxes(out, 0, 1).reshape(c.shape + (6, 6))
+
+
+def _solve_condensed(model, free, k_const, k_var, f, inner, outer):
+    """Condense the ``inner`` freedoms (the same stiffness in every geometry) out once,
+    then solve the ``outer`` ones for the whole batch by Cholesky.
+
+    :returns: (inner displacements, outer displacements), or ``None`` when the inner
+        block alone is singular (the full solve then names the mechanism).
+    """
+    k_ii = k_const[inner[:, None], inner[None, :]]
+    k_io = k_const[inner[:, None], outer[None, :]]
+    diag = np.diag(k_ii)
     if not (diag > 0).all():
-        dof = int(plan.free[np.argwhere(~(diag > 0))[0, 1]])
-        raise _mechanism(model, dof)
-    scaled = kff / np.sqrt(diag[:, :, None] * diag[:, None, :])
+        return None
+    sc = 1.0 / np.sqrt(diag)
+    try:
+        chol = np.linalg.cholesky(k_ii * sc[:, None] * sc[None, :])
+    except np.linalg.LinAlgError:
+        return None
+    if not (np.diag(chol) ** 2 > MECHANISM_PIVOT).all():
+        return None
+    chol_inv = np.linalg.inv(chol)
+    k_ii_inv = (sc[:, None] * chol_inv.T) @ (chol_inv * sc[None, :])
+    x_io = k_ii_inv @ k_io                                          # (ni, no)
+    x_f = f[:, inner] @ k_ii_inv.T                                  # (B, ni)
+    k_star = k_var + (k_const[outer[:, None], outer[None, :]] - k_io.T @ x_io)
+    f_star = f[:, outer] - x_f @ k_io
+    d_out = _cholesky_solve(model, free[outer], k_star, f_star)
+    d_in = x_f - d_out @ x_io.T
+    return d_in, d_out
+
+
+def _cholesky_solve(model: FrameModel, dofs: np.ndarray, kff: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """Solve ``kff @ x = f`` for a batch by Cholesky, raising :class:`FrameModelError` for a mechanism.
+
+    The matrix is scaled to a unit diagonal first; a pivot below
+    :data:`MECHANISM_PIVOT` means the frame can move without straining.
+    """
+    batch, n = f.shape
+    if n == 0:
+        return f.copy()
+    diag = np.einsum("bii->bi", kff)
+    if not (diag > 0).all():
+        raise _mechanism(model, int(dofs[np.argwhere(~(diag > 0))[0, 1]]))
+    sc = 1.0 / np.sqrt(diag)
+    scaled = kff * sc[:, :, None] * sc[:, None, :]
     try:
         chol = np.linalg.cholesky(scaled)
     except np.linalg.LinAlgError:
-        pivots = None
-    else:
-        pivots = np.einsum("bii->bi", chol) ** 2
-        if (pivots > MECHANISM_PIVOT).all():
-            return
-    if pivots is None:
-        # find the freedom by eliminating on the first bad geometry
-        eig, vec = np.linalg.eigh(scaled[0])
-        dof = int(plan.free[np.argmax(np.abs(vec[:, 0]))])
-    else:
-        b, j = np.argwhere(~(pivots > MECHANISM_PIVOT))[0]
-        eig, vec = np.linalg.eigh(scaled[b])
-        dof = int(plan.free[np.argmax(np.abs(vec[:, 0]))])
-    raise _mechanism(model, dof)
+        chol = None
+    if chol is None or not (np.einsum("bii->bi", chol) ** 2 > MECHANISM_PIVOT).all():
+        bad = 0 if chol is None else int(np.argwhere(~(np.einsum("bii->bi", chol) ** 2 > MECHANISM_PIVOT))[0, 0])
+        _, vec = np.linalg.eigh(scaled[bad])
+        raise _mechanism(model, int(dofs[np.argmax(np.abs(vec[:, 0]))]))
+    b = f * sc
+    if batch == 1:
+        y = np.linalg.solve(chol[0], b[0])
+        return (np.linalg.solve(chol[0].T, y) * sc[0])[None]
+    # batched forward and back substitution, one freedom at a time across the batch
+    y = np.empty_like(b)
+    for i in range(n):
+        y[:, i] = (b[:, i] - np.einsum("bj,bj->b", chol[:, i, :i], y[:, :i])) / chol[:, i, i]
+    x = np.empty_like(b)
+    for i in range(n - 1, -1, -1):
+        x[:, i] = (y[:, i] - np.einsum("bj,bj->b", chol[:, i + 1:, i], x[:, i + 1:])) / chol[:, i, i]
+    return x * sc
 
 
 def _mechanism(model: FrameModel, dof: int) -> FrameModelError:

@@ -69,10 +69,17 @@ def read_linkage(top: TableReader, text: str) -> LinkageRig:
 
     loads = []
     for lt in top.array("load", required=False):
-        loads.append(Load(name=lt.text("name"), mass_kg=lt.quantity("mass", "mass", positive=True),
-                          on=lt.choice("on", MOUNTS), x_m=lt.quantity("x", "length"),
-                          counterweight=lt.boolean("counterweight", False)))
+        load = Load(name=lt.text("name"), mass_kg=lt.quantity("mass", "mass", positive=True),
+                    on=lt.choice("on", MOUNTS), x_m=lt.quantity("x", "length"),
+                    counterweight=lt.boolean("counterweight", False))
+        if load.on == "platform" and not load.x_m > 0:
+            raise lt.error("x", f"{load.x_m:g} m puts a platform load behind the pivot line; the platform "
+                                "is in front of it (x > 0)")
+        if load.on == "rear-bar" and not load.x_m < 0:
+            raise lt.error("x", f"{load.x_m:g} m puts a rear-bar load in front of the pivot line; the rear "
+                                "bar is behind it (x < 0)")
         lt.finish()
+        loads.append(load)
 
     if not top.has("riders"):
         raise top.error("riders", "missing: give [riders] with x, the riders' combined centre of mass")
@@ -81,6 +88,9 @@ def read_linkage(top: TableReader, text: str) -> LinkageRig:
         raise rt.error("x", "missing: the riders' combined centre of mass, in m from the pivot line")
     riders = Riders(x_m=rt.quantity("x", "length"),
                     allowance_kg=rt.quantity("allowance", "mass", 0.0, nonnegative=True))
+    if not riders.x_m > 0:
+        raise rt.error("x", f"{riders.x_m:g} m puts the riders behind the pivot line; they stand on the "
+                            "platform, in front of it (x > 0)")
     rt.finish()
 
     lt = top.sub("limits")

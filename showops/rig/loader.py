@@ -46,6 +46,6 @@ def parse_rig(text: str, source: str = "<rig>"):
     if not top.has("kind"):
         raise top.error("kind", f"missing; expected one of {', '.join(sorted(KINDS))}")
     kind = top.raw("kind")
-    if kind not in KINDS:
+    if not isinstance(kind, str) or kind not in KINDS:
         raise top.error("kind", f"unknown kind {kind!r}; expected one of {', '.join(sorted(KINDS))}")
     return KINDS[kind].read(top, text)

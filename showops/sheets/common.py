@@ -112,6 +112,10 @@ def styles() -> dict[str, ParagraphStyle]:
                                      leading=16, textColor=PAPER, alignment=TA_CENTER, spaceAfter=0),
         "caution": ParagraphStyle("caution", parent=base, fontSize=11, leading=13.5, spaceAfter=0),
     }
+    out["bullet"] = ParagraphStyle("bullet", parent=base, leftIndent=14, firstLineIndent=-10)
+    out["banner_dark"] = ParagraphStyle("banner_dark", parent=out["banner"], textColor=INK)
+    out["banner_sub_dark"] = ParagraphStyle("banner_sub_dark", parent=out["banner_sub"], textColor=INK)
+    out["cell_inverse"] = ParagraphStyle("cell_inverse", parent=out["cell_bold"], textColor=PAPER)
     return out
 
 
@@ -124,23 +128,60 @@ def text(value: Any) -> str:
 
 
 class SheetParagraph(Paragraph):
-    """A Paragraph that remembers its line breaks for the last width it was wrapped to.
+    """A Paragraph that shares its parse and its line breaks with every equal paragraph.
 
-    A table wraps each cell to measure it and again to draw it, and again on every
-    page a long table is split over; the breaks depend only on the width, so the
-    second and later wraps are free. (Crew sheets are mostly table cells.)
+    A crew sheet prints the same texts many times (a procedure's steps on every cue
+    that uses it, again on the role pages), and a table wraps each cell to measure it,
+    again to draw it and again on every page it is split over. The parse depends only
+    on the text and the style, the line breaks also on the width, so both are kept in
+    small bounded caches. Read-only use of the cached fragments and lines is what
+    reportlab does with them when it draws (tests compare a cached and an uncached
+    render byte for byte).
     """
 
+    _parsed: dict[tuple, tuple] = {}
+    _broken: dict[tuple, tuple] = {}
+    #: entries kept in each cache before it is emptied (a few sheets' worth)
+    CACHE_SIZE = 4096
+
+    def __init__(self, text, style=None, bulletText=None, frags=None, **kwargs):  # noqa: N803
+        cacheable = (frags is None and bulletText is None and not kwargs and style is not None
+                     and STYLES.get(style.name) is style)
+        self._key = (text, style.name) if cacheable else None
+        hit = self._parsed.get(self._key) if cacheable else None
+        if hit is None:
+            super().__init__(text, style, bulletText=bulletText, frags=frags, **kwargs)
+            if cacheable:
+                if len(self._parsed) >= self.CACHE_SIZE:
+                    self._parsed.clear()
+                self._parsed[self._key] = (self.style, self.text, self.frags, self.bulletText)
+        else:
+            self.caseSensitive = 1
+            self.encoding = "utf8"
+            self.style, self.text, self.frags, self.bulletText = hit
+            self.debug = 0
+
     def wrap(self, availWidth, availHeight):  # noqa: N803 (reportlab's names)
-        memo = self.__dict__.get("_wrap_memo")
-        if memo is not None and memo[0] == availWidth:
-            _, self.blPara, self.height, self._wrapWidths = memo
+        if self._key is None:
+            return super().wrap(availWidth, availHeight)
+        key = (self._key, availWidth)
+        hit = self._broken.get(key)
+        if hit is not None:
+            self.blPara, self.height, self._wrapWidths = hit
             self.width = availWidth
             return availWidth, self.height
         result = super().wrap(availWidth, availHeight)
         if availWidth >= 1e-8:
-            self._wrap_memo = (availWidth, self.blPara, self.height, self._wrapWidths)
+            if len(self._broken) >= self.CACHE_SIZE:
+                self._broken.clear()
+            self._broken[key] = (self.blPara, self.height, self._wrapWidths)
         return result
+
+    @classmethod
+    def clear_caches(cls) -> None:
+        """Forget every cached parse and line break (tests use it to compare renders)."""
+        cls._parsed.clear()
+        cls._broken.clear()
 
 
 class Bold(str):
@@ -340,13 +381,9 @@ def banner(words: str, subtitle: str | None = None, *, width: float | None = Non
     ``solid`` gives white on black (for DO NOT RUN); otherwise black on a light grey
     tint inside a heavy double border (for CAUTION).
     """
-    style_word = STYLES["banner"] if solid else ParagraphStyle("banner_dark", parent=STYLES["banner"],
-                                                               textColor=INK)
-    style_sub = STYLES["banner_sub"] if solid else ParagraphStyle("banner_sub_dark",
-                                                                  parent=STYLES["banner_sub"], textColor=INK)
-    rows = [[Paragraph(text(words), style_word)]]
+    rows = [[para(words, "banner" if solid else "banner_dark")]]
     if subtitle:
-        rows.append([Paragraph(text(subtitle), style_sub)])
+        rows.append([para(subtitle, "banner_sub" if solid else "banner_sub_dark")])
     table = Table(rows, colWidths=[width] if width else None, hAlign="LEFT")
     cmds = [("TOPPADDING", (0, 0), (-1, -1), 5), ("BOTTOMPADDING", (0, 0), (-1, -1), 7)]
     if solid:
@@ -446,7 +483,7 @@ def verdict_style(col: int, row: int, verdict: str) -> list[tuple]:
 
 def inverse_cell(value: str) -> Paragraph:
     """Return bold white-on-nothing text, for a cell whose background :func:`verdict_style` blackens."""
-    return Paragraph(text(value), ParagraphStyle("cell_inverse", parent=STYLES["cell_bold"], textColor=PAPER))
+    return para(value, "cell_inverse")
 
 
 def verdict_paragraph(verdict: str) -> Bold:

@@ -8,6 +8,7 @@ prints the riders' total (with the rig's allowance) against the rated payload.
 from __future__ import annotations
 
 import math
+import re
 from datetime import datetime, timezone
 from typing import Any, Iterable, Sequence
 
@@ -15,7 +16,7 @@ from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, KeepTogether, PageBreak, Spacer, Table, TableStyle
 
 from showops import CAUTION
-from showops.sheets.common import (INK, Bold, TINT_CAUTION, Footer, FooterContext, LimitBar, QRCode, TickBox,
+from showops.sheets.common import (INK, PAPER, Bold, TINT_CAUTION, Footer, FooterContext, LimitBar, QRCode, TickBox,
                                    VERDICT_WORDS, banner, build_pdf, caution_block, content_width,
                                    format_figure, grid_table, limit_table, page_size, para, short_hash,
                                    signoff_table, text, verdict_paragraph, verdict_style)
@@ -391,64 +392,86 @@ def _phase_tables(cue: CueNight, width: float) -> list:
     return out + stop
 
 
-def _procedure_cautions(cue: CueNight) -> list[str]:
-    """The procedure's free text under its title (its cautions), placeholders bound to tonight."""
-    procedure = cue.procedure
+_PLACEHOLDER = re.compile(r"\{\{(.*?)\}\}", re.S)
+_BOLD = re.compile(r"\*\*(.+?)\*\*", re.S)
+_ITALIC = re.compile(r"(?<![*\w])\*(?!\s)(.+?)(?<!\s)\*(?![*\w])", re.S)
+
+
+def procedure_intro(procedure) -> list[tuple[str, bool]]:
+    """Return the procedure's free text under its title (its purpose and cautions).
+
+    :returns: blocks of Markdown source, each with whether it is a list item; the
+        text stops at the first phase heading.
+    """
     if procedure is None or not getattr(procedure, "text", ""):
         return []
-    lines = procedure.text.splitlines()
-    out: list[str] = []
+    blocks: list[tuple[str, bool]] = []
+    current: list[str] = []
+    bullet = False
     started = False
-    for line in lines:
+
+    def flush():
+        if current:
+            blocks.append((" ".join(current), bullet))
+            current.clear()
+
+    for line in procedure.text.splitlines():
         stripped = line.strip()
-        if stripped.startswith("# "):
+        if stripped.startswith("# ") and not started:
             started = True
             continue
-        if stripped.startswith("##"):
-            if started:
-                break
+        if not started:
             continue
-        if started and stripped:
-            out.append(stripped)
-    if not out:
-        return []
-    paragraph = " ".join(out)
-    return [bind_placeholders(paragraph, cue)]
+        if stripped.startswith("##"):
+            break
+        if not stripped:
+            flush()
+            bullet = False
+        elif stripped[:2] in ("- ", "* ") and not stripped.startswith("**"):
+            flush()
+            bullet = True
+            current.append(stripped[2:].strip())
+        else:
+            current.append(stripped)
+    flush()
+    return blocks
 
 
-def bind_placeholders(template: str, cue: CueNight) -> str:
-    """Bind ``{{ ... }}`` placeholders in a procedure's free text to tonight's cue.
-
-    Uses a sandboxed Jinja2 environment (no access to Python internals) with the
-    names the procedure file documents: ``load``, ``riders``, ``crew`` (by role),
-    ``cue``. Anything that fails to bind is shown as written rather than guessed.
-    """
-    if "{{" not in template and "{%" not in template:
-        return template
-    from jinja2 import TemplateError
-    from jinja2.sandbox import SandboxedEnvironment
+def bind_placeholders(source: str, plan: NightPlan, cue: CueNight) -> str:
+    """Bind ``{{ ... }}`` in a procedure's free text to tonight's cue, as the procedure
+    package binds them for the web (``showops.procedure.render``: a sandbox, and a
+    visible "[not bound: ...]" marker for anything that cannot be bound)."""
+    if "{{" not in source:
+        return source
+    from showops.procedure.render import bind_placeholder, render_context
 
     crew: dict[str, list[str]] = {}
     for a in cue.crew:
         crew.setdefault(a.role, []).append(a.name)
-    env = SandboxedEnvironment(autoescape=False)
-    try:
-        return env.from_string(template).render(load=cue.load or {}, riders=list(cue.riders), crew=crew,
-                                                cue={"number": cue.number, "name": cue.name})
-    except (TemplateError, TypeError, ValueError, ArithmeticError):
-        return template
+    context = render_context(load=cue.load, riders=cue.riders, crew=crew,
+                             performance={"id": plan.performance_id, "starts_at": plan.starts_at.isoformat()},
+                             cue={"number": cue.number, "name": cue.name})
+    return _PLACEHOLDER.sub(lambda m: bind_placeholder(m.group(1), context)[0], source)
 
 
-def _cautions(cue: CueNight, width: float) -> list:
-    items: list = [para("Cautions", "h2")]
-    for line in _procedure_cautions(cue):
-        items.append(para(line, "body"))
+def markdown_inline(source: str) -> str:
+    """Return reportlab markup for Markdown text with ``**bold**`` and ``*italic*`` (escaped first)."""
+    out = text(source)
+    out = _BOLD.sub(r"<b>\1</b>", out)
+    return _ITALIC.sub(r"<i>\1</i>", out)
+
+
+def _cautions(plan: NightPlan, cue: CueNight, width: float) -> list:
+    """The procedure's purpose and cautions and tonight's cautions: read before the steps."""
+    items: list = [para("Read before the cue: purpose and cautions", "h2")]
+    for source, bullet in procedure_intro(cue.procedure):
+        markup = markdown_inline(bind_placeholders(source, plan, cue))
+        items.append(para(("- " if bullet else "") + markup, "bullet" if bullet else "body", markup=True))
     for reason in cue.reasons:
         if reason.level == "caution":
-            items.append(para(f"CAUTION: {reason.text}", "body_bold"))
-    for note in (cue.load or {}).get("notes", ()):
-        items.append(para(f"From the load check: {note}", "body"))
-    items += [Spacer(1, 2 * mm), caution_block(width)]
+            items.append(para(f"CAUTION tonight: {reason.text}", "body_bold"))
+    if len(items) == 1:
+        return []
     return [CondPageBreak(45 * mm), *items]
 
 
@@ -464,7 +487,7 @@ def _checker_block(cue: CueNight) -> list:
             out.append(para(f"- {finding}", "body"))
     else:
         out.append(para(f"Procedure checker: no findings (rule set {rules}).", "body_bold"))
-    return out
+    return [KeepTogether(out)]
 
 
 def _cue_pages(plan: NightPlan, cue: CueNight, width: float, footer: Footer, url: str) -> list:
@@ -486,11 +509,14 @@ def _cue_pages(plan: NightPlan, cue: CueNight, width: float, footer: Footer, url
                          "least margin and any that is not OK.")
         notes.append("The heavy upright line on each bar is the limit.")
         story.append(para(" ".join(notes), "small"))
+        for note in load.get("notes", ()):
+            story.append(para(f"From the load check: {note}", "body_bold"))
     else:
         story.append(para("No load figures computed for this cue: DO NOT RUN it from this sheet.", "body_bold"))
+    story += [Spacer(1, 2 * mm), caution_block(width)]
     story += _checker_block(cue)
+    story += _cautions(plan, cue, width)
     story += _phase_tables(cue, width)
-    story += _cautions(cue, width)
     return story
 
 
@@ -516,7 +542,28 @@ def _part(step, role: str) -> str:
     return " + ".join(parts)
 
 
+def _role_step_text(cue: CueNight, step, role: str) -> str:
+    """A step as the person in ``role`` needs it: what, when, the words, the caution, who else."""
+    parts = [f"<b>{text(step.title)}</b>"]
+    if step.needs:
+        parts.append(f"<i>Only when:</i> {text(', '.join(step.needs))}")
+    if step.say:
+        parts.append(f"<b>Say:</b> \"{text(step.say)}\"")
+    if step.reply:
+        parts.append(f"<b>Answer:</b> \"{text(step.reply)}\"")
+    if step.note:
+        parts.append(f"<b>CAUTION:</b> {text(step.note)}")
+    others = []
+    for label, other in (("does", step.by), ("go from", step.go), ("checks", step.check)):
+        if other and other != role:
+            others.append(f"{label} {_who(cue, other)}")
+    if others:
+        parts.append("<i>With:</i> " + text("; ".join(others)))
+    return "<br/>".join(parts)
+
+
 def _role_pages(plan: NightPlan, role: str, width: float, footer: Footer) -> list:
+    """Everything ``role`` does all night: one table, a heading row per cue, a row per step."""
     title = "Riders" if role == RIDER_ROLE else role.capitalize()
     story: list = [FooterContext(footer.state, _all_versions(plan)),
                    para(f"ROLE: {title.upper()}", "h1"),
@@ -527,38 +574,40 @@ def _role_pages(plan: NightPlan, role: str, width: float, footer: Footer) -> lis
     for i, cue in enumerate(plan.rig_cues, start=1):
         roster.append([Bold(cue.number), cue.name, people(cue, role), verdict_paragraph(cue.verdict)])
         extra += verdict_style(3, i, cue.verdict)
-    story.append(grid_table(roster, [16 * mm, 50 * mm, width - 16 * mm - 50 * mm - 32 * mm, 32 * mm], extra=extra))
+    story += [grid_table(roster, [16 * mm, 50 * mm, width - 16 * mm - 50 * mm - 32 * mm, 32 * mm], extra=extra),
+              Spacer(1, 4 * mm)]
+
+    rows: list[list[Any]] = [["No", "Your part", "Step and the words", "Done"]]
+    extra = [("ALIGN", (3, 1), (3, -1), "CENTER"), ("VALIGN", (3, 1), (3, -1), "MIDDLE")]
+
+    def heading(value: str, *, dark: bool = False, tint=TINT_CAUTION, style: str = "cell_bold") -> None:
+        r = len(rows)
+        rows.append([para(value, "cell_inverse" if dark else style), "", "", ""])
+        extra.extend([("SPAN", (0, r), (-1, r)), ("BACKGROUND", (0, r), (-1, r), INK if dark else tint),
+                      ("LINEABOVE", (0, r), (-1, r), 2.4, INK)])
+
     for cue in plan.rig_cues:
         main, stop = _steps_of(cue.procedure, role)
-        head = [CondPageBreak(50 * mm), para(f"Cue {cue.number} - {cue.name} ({cue.rig_name or cue.rig})", "h2")]
+        heading(f"CUE {cue.number} - {cue.name} ({cue.rig_name or cue.rig}). You: {people(cue, role)}. "
+                f"Riders: {', '.join(cue.riders) or 'none'}. Emergency signal: {cue.signal or 'NONE AGREED'}.")
         if cue.verdict == "blocked":
-            head.append(banner("DO NOT RUN", "blocked tonight: see the cue's page", width=width))
+            heading(f"DO NOT RUN cue {cue.number}: blocked tonight, see the cue's page", dark=True)
         elif cue.verdict == "caution":
-            head.append(para("CAUTION: see the cue's page before it runs.", "body_bold"))
-        head.append(para(f"You: {people(cue, role)}. Riders: {', '.join(cue.riders) or 'none'}. "
-                         f"Emergency signal: {cue.signal or 'NONE AGREED'}.", "body"))
-        story += head
-        if main:
-            rows: list[list[Any]] = [["No", "Your part", "Step and the words", "Done"]]
-            for step in main:
-                rows.append([Bold(step.number), Bold(_part(step, role)),
-                             para(_step_text(step) + "<br/>" + _who_text(cue, step), "cell", markup=True),
-                             TickBox()])
-            story.append(grid_table(rows, [10 * mm, 24 * mm, width - 10 * mm - 24 * mm - 16 * mm, 16 * mm],
-                                    extra=[("ALIGN", (3, 1), (3, -1), "CENTER"),
-                                           ("VALIGN", (3, 1), (3, -1), "MIDDLE")]))
-        else:
-            story.append(para(f"No step for the {role} on this cue.", "body"))
+            heading(f"CAUTION on cue {cue.number}: see the cue's page before it runs", tint=PAPER)
+        if not main and not stop:
+            rows.append(["", "", f"No step for the {role} on this cue.", ""])
+        for step in main:
+            rows.append([Bold(step.number), Bold(_part(step, role)),
+                         para(_role_step_text(cue, step, role), "cell", markup=True), TickBox()])
         if stop:
-            story.append(para("If anything goes wrong (stop procedure)", "h3"))
-            rows = [["No", "Your part", "Step and the words"]]
+            heading(f"Cue {cue.number}: if anything goes wrong (stop procedure)", tint=PAPER, style="cell_bold")
             for step in stop:
                 rows.append([Bold(step.number), Bold(_part(step, role)),
-                             para(_step_text(step), "cell", markup=True)])
-            story.append(grid_table(rows, [10 * mm, 24 * mm, width - 34 * mm]))
+                             para(_role_step_text(cue, step, role), "cell", markup=True), ""])
+    story.append(grid_table(rows, [10 * mm, 26 * mm, width - 10 * mm - 26 * mm - 16 * mm, 16 * mm], extra=extra))
     story += [Spacer(1, 4 * mm), caution_block(width)]
     return story
 
 
 __all__ = ["LIVE_HOST", "LIVE_PORT", "live_url", "people", "render_crew_sheet", "roles_of", "step_table",
-           "bind_placeholders"]
+           "bind_placeholders", "procedure_intro", "markdown_inline"]

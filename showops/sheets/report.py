@@ -113,7 +113,7 @@ def render_show_report(report, out, *, printed_at: str) -> None:
     doc = document(out, f"Show report, performance {r.performance_id}", footer)
     width = PAGE[0] - 2 * MARGIN
     story = [Paragraph(escape(f"Show report: {r.production}"), TITLE),
-             p(f"{r.company} · {r.venue} · {r.starts_at[:16].replace('T', ' ')} UTC · performance {r.performance_id}",
+             p(f"{r.company} · {r.venue} · {r.starts_at[:16].replace('T', ' ')} · performance {r.performance_id}",
                BODY), Spacer(1, 4)]
     rig_runs = [c for c in r.running_order if c.cue.rig]
     ran = [c for c in r.running_order if c.started_at]
@@ -128,7 +128,7 @@ def render_show_report(report, out, *, printed_at: str) -> None:
     ]
     story.append(table(["", ""], facts, [0.38 * width, 0.62 * width]))
 
-    story.append(Paragraph("Running order", H2))
+    story.append(Paragraph("Running order (times from the log, UTC)", H2))
     rows = []
     for c in r.running_order:
         rows.append([c.cue.number, c.cue.name, c.cue.rig or "", hhmm(c.started_at), hhmm(c.completed_at),

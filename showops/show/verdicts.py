@@ -494,6 +494,14 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
 _RIDER_LIMITS = ("rider_clearance", "rehearsal")
 
 
+def _short(reason: Reason) -> str:
+    """A few words for a reason, for a fix line that must not read like tonight's block."""
+    words = reason.limit.split(":")[0].replace("_", " ")
+    if reason.value is not None and reason.allowed is not None and reason.allowed:
+        return f"{words} at {100 * reason.value / reason.allowed:.0f}% of its limit"
+    return words
+
+
 def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _Context) -> list[str]:
     """What would clear a blocked cue: the balance advisor, the other cast, a trained person."""
     fixes: list[str] = []
@@ -519,7 +527,8 @@ def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _C
             _, other = _rider_reasons(cue, cast, perf.starts_at, ctx)
             still = [r for r in other if r.level == "blocked"]
             if still:
-                fixes.append(f"the other cast ({cast_name}: {_names(cast)}) does not clear it: {still[0].text}")
+                fixes.append(f"the other cast ({cast_name}: {_names(cast)}) does not clear it "
+                             f"({'; '.join(dict.fromkeys(_short(r) for r in still))})")
             else:
                 fixes.append(f"the other cast ({cast_name}: {_names(cast)}) clears the load and casting checks")
     for r in blocked:

@@ -489,12 +489,42 @@ def _finished(db, now: datetime) -> set[int]:
     return done
 
 
+#: (database file, performances) -> (last log id, finished nights, deviations). The log
+#: is append-only and procedure versions never change, so a scan stays right until a
+#: new row is appended or another night ends; the web pages reuse it between requests.
+_SCAN_CACHE: dict[tuple, tuple] = {}
+_SCAN_CACHE_MAX = 16
+
+
+def _db_file(db) -> str:
+    row = db.execute("PRAGMA database_list").fetchone()
+    return row[2] if row else ""
+
+
 def find_deviations(db: sqlite_utils.Database, performance_ids: Iterable[int] | None = None, *,
                     now: datetime | None = None, rows: list[dict] | None = None) -> list[Deviation]:
-    """Scan the log (or the given performances' part of it) with every rule."""
-    rows = log_rows(db, performance_ids) if rows is None else rows
+    """Scan the log (or the given performances' part of it) with every rule.
+
+    A scan of the stored log is cached per database and set of performances until
+    the log grows or another night is over.
+    """
+    finished = frozenset(_finished(db, _now(now)))
+    if rows is not None:
+        facts = procedure_facts(db, {r["procedure_version"] for r in rows})
+        return scan(rows, facts, finished=finished)
+    ids = None if performance_ids is None else tuple(sorted(set(int(i) for i in performance_ids)))
+    key = (_db_file(db), ids)
+    last_id = db.execute("SELECT coalesce(max(id), 0) FROM step_log").fetchone()[0]
+    hit = _SCAN_CACHE.get(key)
+    if hit is not None and hit[0] == last_id and hit[1] == finished:
+        return list(hit[2])
+    rows = log_rows(db, ids)
     facts = procedure_facts(db, {r["procedure_version"] for r in rows})
-    return scan(rows, facts, finished=_finished(db, _now(now)))
+    found = scan(rows, facts, finished=finished)
+    if len(_SCAN_CACHE) >= _SCAN_CACHE_MAX:
+        _SCAN_CACHE.pop(next(iter(_SCAN_CACHE)))
+    _SCAN_CACHE[key] = (last_id, finished, tuple(found))
+    return found
 
 
 def find_deviation(db: sqlite_utils.Database, key: str, *, now: datetime | None = None) -> Deviation:
@@ -603,3 +633,48 @@ def write_csv(season: SeasonAudit, folder: str | Path) -> list[Path]:
             writer.writerows(rows)
         paths.append(path)
     return paths
+
+
+# -- the demo ---------------------------------------------------------------------------
+
+def seed_demo_audit(db: sqlite_utils.Database, demo_ids: Any, *, now: datetime | None = None) -> list[str]:
+    """Promote one deviation of the demo's past performance to a near miss, classify
+    it, record its investigation and one corrective action, and add a show-report note.
+
+    The deviation is the one the live runner's demo run made on purpose (a step
+    confirmed past its ``hold``, else the HOLD, else the first one found).
+
+    :returns: lines for the demo's printout.
+    :raises Refused: when the past performance has no deviation to promote.
+    """
+    from datetime import timedelta
+
+    from showops.show import demo_data
+
+    pid = demo_ids.past_performance
+    devs = find_deviations(db, [pid], now=now)
+    if not devs:
+        raise Refused(f"the demo's past performance {pid} has no deviation to promote")
+    rank = {"past_hold_time": 0, "hold": 1, "refused_attempt": 2}
+    chosen = min(devs, key=lambda d: (rank.get(d.rule, 9), d.row_ids))
+    sm = Actor(demo_data.STAGE_MANAGER, "stage_manager", person_id=getattr(demo_ids, "stage_manager", None))
+    record_id = promote(db, sm, chosen, now=now)
+    classify(db, sm, record_id, kind="near_miss", likelihood=3, severity_actual="E", severity_potential="C",
+             now=now)
+    investigate(db, sm, record_id, {
+        "immediate_causes": "the step ran past the time the procedure allows for it",
+        "underlying_causes": "the cue was started before the lifters had both hands on the rear bar",
+        "root_causes": "the procedure has no call that confirms the lifters are ready before the go",
+        "contributing_factors": "dark wing; a new lifter on the cue that night",
+        "similar_events": "none found in the log of earlier nights",
+        "risk_review": "the rig's lift procedure risk assessment reviewed; no new hazard",
+    }, now=now)
+    occurred = datetime.fromisoformat(chosen.at_utc)
+    action_id = add_action(db, sm, record_id, {
+        "description": "Add a 'lifters ready' reply before the go on the lift procedure and brief the crew",
+        "owner": "Head of stage", "due": (occurred + timedelta(days=7)).date().isoformat(),
+        "control": "administrative"}, now=now)
+    add_note(db, sm, pid, f"{chosen.title}: {chosen.text}. Recorded as near miss #{record_id}.", now=now)
+    return [f"promoted the past performance's deviation '{chosen.title}' ({chosen.key}) to near miss "
+            f"#{record_id} (3C tolerable), with corrective action {action_id} due "
+            f"{(occurred + timedelta(days=7)).date().isoformat()}"]

@@ -23,15 +23,15 @@ from __future__ import annotations
 import json
 import threading
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime, timedelta, timezone
 from typing import Any, Callable, Iterable
 
 import sqlite_utils
 
 from showops.errors import NotFound, Refused as _Refused, ShowopsError
-from showops.live.runner import (Action, Actor, Crew, CueSetup, CueState, Refusal, decide, describe, new_state,
-                                 next_for, replay)
+from showops.live.runner import (Action, Actor, Crew, CueSetup, CueState, Refusal, apply, decide, describe,
+                                 new_state, next_for, replay)
 from showops.procedure.model import REST_STATE
 from showops.show.model import CueNight, NightPlan
 from showops.store.log import LogWriter, append_in_transaction, find_by_client_id, iter_log
@@ -127,6 +127,8 @@ class Outcome:
 
     rows: tuple[dict[str, Any], ...]
     refusal: Refusal | None = None
+    #: the cue's state right after these rows (None for a retried client id)
+    state: CueState | None = field(default=None, compare=False)
 
     @property
     def row(self) -> dict[str, Any]:
@@ -200,7 +202,9 @@ class Live:
             state = _replayed(wdb, setup)
             decision = decide(state, action, now or self.clock())
             rows = append_in_transaction(wdb.conn, decision.events)
-            return Outcome(tuple(rows), decision.refusal)
+            for row in rows:
+                apply(state, row)
+            return Outcome(tuple(rows), decision.refusal, state)
 
         outcome = self._write(db, work)
         if outcome.refusal is not None:
@@ -272,11 +276,17 @@ class Live:
     # -- reading ---------------------------------------------------------------------
 
     def cue_status(self, db: sqlite_utils.Database, performance_id: int, cue_id: int, *,
-                   person_id: int | None = None, now: datetime | None = None) -> dict[str, Any]:
+                   person_id: int | None = None, now: datetime | None = None,
+                   state: CueState | None = None) -> dict[str, Any]:
         """The cue's live state (every step), and what ``person_id`` should do next.
 
+        :param state: a state already replayed (an action's :attr:`Outcome.state`).
         :raises NotFound: for an unknown performance or cue.
         """
+        if state is not None:
+            view = describe(state, now or self.clock())
+            view["next"] = next_for(state, person_id) if person_id is not None else None
+            return view
         plan = self.plans.get(db, performance_id, writer=self.writer)
         setup = setup_for(plan, _cue(plan, cue_id))
         state = _replayed(db, setup)
@@ -323,8 +333,6 @@ class Live:
 def _night_states(db: sqlite_utils.Database, plan: NightPlan) -> list[CueState]:
     """Replay every rig cue of the night from one pass over the performance's rows."""
     states = {c.cue_id: new_state(setup_for(plan, c)) for c in plan.rig_cues}
-    from showops.live.runner import apply
-
     for row in iter_log(db, performance_id=plan.performance_id):
         state = states.get(row["cue_id"])
         if state is not None:
@@ -421,8 +429,13 @@ def run_demo_performance(db: sqlite_utils.Database, performance_id: int, *, now:
 
     loader = plans or default_plans
     plan = loader(db, performance_id)
-    if db.conn.execute("SELECT 1 FROM step_log WHERE performance_id = ? LIMIT 1", (performance_id,)).fetchone():
-        raise ShowopsError(f"performance {performance_id} already has show log rows; the demo run is made once")
+    from showops.live.runner import CUE_EVENTS
+
+    names = CUE_EVENTS + ("signoff",)
+    if db.conn.execute(f"SELECT 1 FROM step_log WHERE performance_id = ? AND event IN "
+                       f"({', '.join('?' for _ in names)}) LIMIT 1", (performance_id, *names)).fetchone():
+        raise ShowopsError(f"performance {performance_id} has already been run in the show log; "
+                           f"the demo run is made once")
     rnd = random.Random(seed)
     start = now or plan.starts_at
     if start.tzinfo is None:
@@ -433,7 +446,9 @@ def run_demo_performance(db: sqlite_utils.Database, performance_id: int, *, now:
         clock["t"] += timedelta(seconds=rnd.uniform(lo, hi))
         return clock["t"]
 
-    service = Live(plans=loader, clock=lambda: clock["t"], cache_ttl_s=0)
+    # One connection writes only log rows here, so the plan cannot change under the run
+    # (data_version stays put): keep it, and reload only where the service asks fresh.
+    service = Live(plans=loader, clock=lambda: clock["t"], cache_ttl_s=3600)
     counts = {"rows": 0, "refused": 0, "holds": 0, "cues": 0, "overdue": 0}
     first_id = (db.conn.execute("SELECT max(id) FROM step_log").fetchone()[0] or 0)
 

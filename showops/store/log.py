@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import queue
 import threading
-from concurrent.futures import Future
+from concurrent.futures import Future, TimeoutError as FutureTimeout
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable, Iterable, Iterator, Mapping, TypeVar
@@ -181,6 +181,12 @@ def verify_log(db: sqlite_utils.Database) -> Problem | None:
             conn.execute("COMMIT")
 
 
+class LogBusy(ShowopsError):
+    """The log writer did not answer in time (the disk is stalled or the queue is long)."""
+
+    status = 503
+
+
 class WriterClosed(ShowopsError):
     """The log writer has stopped; nothing more can be recorded through it."""
 
@@ -209,6 +215,7 @@ class LogWriter:
         self._ready = threading.Event()
         self._db: sqlite_utils.Database | None = None
         self._error: BaseException | None = None
+        self._inflight: list = []
         self._open_db = open_db
         #: batches committed and units run, for the bench
         self.batches = 0
@@ -226,14 +233,23 @@ class LogWriter:
     def submit(self, work: Callable[[sqlite_utils.Database], T]) -> Future:
         """Queue ``work``; the future resolves after the batch holding it is committed."""
         if self._closed:
-            raise WriterClosed("the log writer is closed")
+            raise WriterClosed(f"the log writer is closed{f': {self._error}' if self._error else ''}")
         future: Future = Future()
         self._queue.put((work, future))
         return future
 
     def run(self, work: Callable[[sqlite_utils.Database], T], timeout: float | None = 30) -> T:
-        """Submit ``work`` and wait for its committed result (re-raising its exception)."""
-        return self.submit(work).result(timeout)
+        """Submit ``work`` and wait for its committed result (re-raising its exception).
+
+        :raises LogBusy: when no answer came within ``timeout`` seconds (the work may
+            still be committed later: retry with the same client id).
+        """
+        future = self.submit(work)
+        try:
+            return future.result(timeout)
+        except FutureTimeout:
+            raise LogBusy(f"the log did not answer within {timeout:g} s; the action may still be recorded: "
+                          f"send it again with the same client id") from None
 
     def append(self, events: Iterable[Mapping[str, Any]]) -> list[dict[str, Any]]:
         """Append ``events`` through the writer (see :func:`append_events`)."""
@@ -256,7 +272,26 @@ class LogWriter:
             self._ready.set()
             return
         self._ready.set()
-        conn = self._db.conn
+        try:
+            self._loop(self._db.conn)
+        except BaseException as exc:  # never leave a caller waiting on a dead thread
+            self._closed = True
+            self._error = exc
+            stopped = WriterClosed(f"the log writer stopped: {exc}")
+            for _work, future in self._inflight:
+                if not future.done():
+                    future.set_exception(stopped)
+            while True:
+                try:
+                    item = self._queue.get_nowait()
+                except queue.Empty:
+                    break
+                if item is not None:
+                    item[1].set_exception(stopped)
+        finally:
+            self._db.conn.close()
+
+    def _loop(self, conn: sqlite3.Connection) -> None:
         stop = False
         while not stop:
             try:
@@ -277,9 +312,10 @@ class LogWriter:
                 except queue.Empty:
                     break
             if batch:
+                self._inflight = batch
                 self._commit(conn, batch)
+                self._inflight = []
                 self.outside_version = conn.execute("PRAGMA data_version").fetchone()[0]
-        conn.close()
 
     def _commit(self, conn: sqlite3.Connection, batch: list) -> None:
         outcomes: list[tuple[bool, Any]] = []

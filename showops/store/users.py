@@ -442,3 +442,12 @@ def install_demo_users(db: sqlite_utils.Database, *, stage_manager: str, crew: l
         add(demo_username(name), name, "crew", person(name), pin)
     add(*DEMO_VIEWER, "viewer")
     return made
+
+
+def crewed_performances(db: sqlite_utils.Database, person_id: int) -> list[tuple[int, str]]:
+    """Return ``(performance id, starts_at)`` of every performance ``person_id`` crews, in date order."""
+    if "performance_crew" not in db.table_names():
+        return []
+    return [(i, s) for i, s in db.execute(
+        "SELECT DISTINCT p.id, p.starts_at FROM performance p JOIN performance_crew c ON c.performance_id = p.id "
+        "WHERE c.person_id = ? ORDER BY p.starts_at, p.id", [person_id])]

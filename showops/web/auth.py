@@ -141,6 +141,13 @@ def _start_session(user: store_users.User, *, pin_performance: int | None = None
     g.current_user = user
 
 
+def _log_sign_in(user: store_users.User, method: str, performance_id: int | None = None) -> None:
+    """A ``sign_in`` row in the show log (the live API's writer keeps the chain)."""
+    from showops.web.areas.api import record_sign_in
+
+    record_sign_in(user, method=method, performance_id=performance_id)
+
+
 def _landing(user: store_users.User) -> str:
     try:
         return url_for(LANDING[user.role])
@@ -163,6 +170,7 @@ def sign_in():
         return render_template("auth/sign_in.html", username=username, message=str(exc),
                                next=target or "", has_pin_users=True), exc.status
     _start_session(user)
+    _log_sign_in(user, "password")
     return redirect(target or _landing(user))
 
 
@@ -180,6 +188,7 @@ def sign_in_pin():
         return render_template("auth/sign_in_pin.html", names=names, username=username,
                                message=str(exc)), exc.status
     _start_session(user, pin_performance=performance_id)
+    _log_sign_in(user, "pin", performance_id)
     return redirect(_landing(user))
 
 

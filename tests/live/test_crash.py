@@ -58,7 +58,7 @@ class Server:
         probe = HttpDevice(self.port, timeout=1.0)
         while time.monotonic() < end:
             try:
-                if probe.get("/api/openapi.json")[0] == 200:
+                if probe.get("/api/openapi.json")[0] == 401:  # up and answering (not signed in)
                     probe.close()
                     return
             except (Offline, ValueError):

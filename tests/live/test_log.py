@@ -180,3 +180,59 @@ def test_the_writer_commits_batches_isolates_failures_and_keeps_order(tmp_path):
         writer.close()
     db = open_db(instance)
     assert verify_log(db) is None
+
+
+def test_the_writer_commits_with_full_sync_in_wal(tmp_path):
+    # "Acknowledged means durable": WAL with synchronous=FULL syncs the WAL on every
+    # commit (SQLite documentation, "PRAGMA synchronous": FULL = 2).
+    writer = LogWriter(tmp_path / "i")
+    try:
+        pragmas = writer.run(lambda d: (d.conn.execute("PRAGMA synchronous").fetchone()[0],
+                                        d.conn.execute("PRAGMA journal_mode").fetchone()[0]))
+        assert pragmas == (2, "wal")
+    finally:
+        writer.close()
+    with pytest.raises(Exception, match="closed"):
+        writer.submit(lambda d: None)
+
+
+def test_a_slow_writer_answers_busy_and_the_work_still_lands_once(tmp_path):
+    import time as _time
+
+    from showops.store.log import LogBusy, append_in_transaction
+
+    writer = LogWriter(tmp_path / "i")
+    try:
+        def slow(d):
+            _time.sleep(0.3)
+            return append_in_transaction(d.conn, [{"event": "go", "client_id": "slow-1"}])
+
+        with pytest.raises(LogBusy, match="send it again with the same client id"):
+            writer.run(slow, timeout=0.05)
+        again = writer.append([{"event": "go", "client_id": "slow-1"}])
+        assert again[0]["id"] == 1  # the retry found the first one
+    finally:
+        writer.close()
+
+
+def test_a_writer_that_dies_fails_its_callers_instead_of_hanging(tmp_path, monkeypatch):
+    from showops.store.log import WriterClosed
+
+    writer = LogWriter(tmp_path / "i")
+    gate = threading.Event()
+
+    def boom(conn, batch):
+        gate.wait(5)
+        raise RuntimeError("disk gone")
+
+    monkeypatch.setattr(writer, "_commit", boom)
+    first = writer.submit(lambda d: None)
+    second = writer.submit(lambda d: None)
+    gate.set()
+    writer._thread.join(5)
+    assert not writer._thread.is_alive()
+    for future in (first, second):  # in the failed batch or still queued: both told
+        with pytest.raises(WriterClosed, match="the log writer stopped: disk gone"):
+            future.result(5)
+    with pytest.raises(WriterClosed, match="closed: disk gone"):
+        writer.submit(lambda d: None)

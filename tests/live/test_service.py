@@ -152,28 +152,37 @@ def test_the_demo_past_performance_runs_through_the_service(db, lift):
     assert times == sorted(times) and times[0] > "2026-11-20T19:30" and times[-1] < "2026-11-20T23:00"
     assert all(r["device_at"] for r in rows)
     assert verify_log(db) is None
-    with pytest.raises(Exception, match="already has show log rows"):
+    with pytest.raises(Exception, match="has already been run in the show log"):
         svc.run_demo_performance(db, 2, plans=lift.plans)
 
 
 def test_the_real_demo_past_performance_runs_every_cue_it_can(tmp_path):
-    """The shipped demo (showops.store.show.install_demo) through the real night plan:
-    every rig cue that is not blocked runs to completion, every blocked one is a
-    refused start, the night is signed off and the chain verifies."""
+    """The shipped demo (show's install_demo, care's seed_demo_care) through the real
+    night plan: every rig cue that is not blocked runs to completion, every blocked
+    one is a refused start, the deviations the audit looks for are there, the night
+    is signed off and the chain verifies."""
     from datetime import date
 
     from showops.store import show as store
+    from showops.store.care import seed_demo_care
 
     db = open_db(tmp_path / "demo")
-    ids = store.install_demo(db, date(2026, 12, 2))
+    today = date(2026, 12, 2)
+    ids = store.install_demo(db, today)
+    seed_demo_care(db, ids, today)
     plan = store.load_night_plan(db, ids.past_performance)
     counts = svc.run_demo_performance(db, ids.past_performance)
     runnable = [c for c in plan.rig_cues if c.verdict != "blocked" and c.procedure is not None]
     blocked = [c for c in plan.rig_cues if c.verdict == "blocked"]
+    assert len(runnable) >= 2, "the demo's past performance should run its lift cues"
     assert counts["cues"] == len(runnable) == count(db, "cue_completed")
-    starts = [r for r in iter_log(db) if r["event"] == "refused" and '"code":"blocked"' in r["detail"]]
-    assert len(starts) == len(blocked)
+    rows = list(iter_log(db, performance_id=ids.past_performance))
+    refused = [r for r in rows if r["event"] == "refused"]
+    assert sum('"code":"blocked"' in r["detail"] for r in refused) == len(blocked)
+    assert sum('"code":"out_of_order"' in r["detail"] for r in refused) == 1
+    assert count(db, "hold") == count(db, "resume") == 1
+    assert sum('"overdue_s"' in (r["detail"] or "") for r in rows) == 1
     assert count(db, "signoff") == 1
-    times = [r["at_utc"] for r in iter_log(db)]
-    assert times[0] > plan.starts_at.astimezone(timezone.utc).isoformat()[:16]
+    runner_rows = [r for r in rows if r["cue_id"] is not None]
+    assert runner_rows[0]["at_utc"] > plan.starts_at.astimezone(timezone.utc).isoformat()[:16]
     assert verify_log(db) is None

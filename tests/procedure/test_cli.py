@@ -100,8 +100,19 @@ def test_render_writes_a_sanitised_page(runner, tmp_path):
     assert page.startswith("<!doctype html>")
     assert "Ines, &lt;b&gt;Tomas&lt;/b&gt;" in page
     assert "lifters <span class=\"placeholder\">Sam, Ade</span>" in page
-    assert "not bound: {{crew.caller}}" in page  # shown, not hidden
-    assert "placeholder" in result.output or "not bound" in result.output
+    assert "[nobody cast as caller]" in page  # shown, not hidden
+    assert "Caution:" in page
+
+
+def test_render_reports_an_unbound_placeholder(runner, tmp_path):
+    proc = tmp_path / "p.md"
+    text = SAFE.replace("{{ load.operator_force_per_person_n|round|int }}", "{{ crew.brak }}")
+    proc.write_text(text)
+    out = tmp_path / "p.html"
+    result = runner.invoke(main, ["procedure", "render", str(proc), "--out", str(out)])
+    assert result.exit_code == 0, result.output
+    assert f"{proc}:{line_of(text, 'Each lifter pulls {{ crew.brak }} N.')}:" in result.output
+    assert "not bound: {{crew.brak}}" in out.read_text()
 
 
 def test_render_bad_crew_option_exits_2(runner, tmp_path):

@@ -199,15 +199,16 @@ def test_a_page_per_role_with_only_that_role_s_steps(plain):
         assert (step.title in brake) == involved, step.title
     # each rig cue appears on the role page, with who holds the role
     for cue in plan.rig_cues:
-        assert f"Cue {cue.number} - {cue.name}" in brake
+        assert f"CUE {cue.number} - {cue.name}" in brake
     assert "Margit Oduya" in brake
 
 
 def test_blocked_cue_is_marked_on_role_pages(heavy):
     plan, pages = heavy
     lifters = role_pages(pages, "lifters")
-    part = lifters.split("Cue 5 - Orchard rise 2")[1].split("Cue 7 -")[0]
-    assert "DO NOT RUN" in part
+    part = lifters.split("CUE 5 - Orchard rise 2")[1].split("CUE 7 -")[0]
+    assert "DO NOT RUN cue 5" in part
+    assert "DO NOT RUN" not in lifters.split("CUE 7 -")[1]
 
 
 def test_unstaffed_role_is_said_in_words():
@@ -277,3 +278,48 @@ def test_live_url_function_is_used_for_each_cue():
 
     render_crew_sheet(plan, live_url=target, printed_at=PRINTED_AT)
     assert seen == [c.number for c in plan.rig_cues]
+
+
+def test_shared_paragraph_caches_change_nothing():
+    """The parse and line-break caches (SheetParagraph) give the same bytes as a cold render."""
+    from showops.sheets.common import SheetParagraph
+
+    plan = make_plan(8, heavy=True, n_rig_cues=4)
+    SheetParagraph.clear_caches()
+    cold = render_crew_sheet(plan, printed_at=PRINTED_AT)
+    warm = render_crew_sheet(plan, printed_at=PRINTED_AT)
+    assert SheetParagraph._parsed and SheetParagraph._broken
+    assert cold == warm
+
+
+def test_the_shipped_procedure_prints_whole(tmp_path):
+    """procedures/orchard-lift.md through the real parser: every step, its cautions bound to tonight."""
+    from dataclasses import replace
+
+    from sheet_plans import ROOT
+    from showops.procedure import load_procedure
+
+    procedure = load_procedure(ROOT / "procedures" / "orchard-lift.md")
+    plan = make_plan(9, n_rig_cues=1)
+    cue = replace(plan.rig_cues[0], procedure=procedure, procedure_title=procedure.title,
+                  procedure_version=procedure.version, signal=procedure.signal)
+    plan = replace(plan, cues=tuple(cue if c.cue_id == cue.cue_id else c for c in plan.cues))
+    pages = pages_of(render_crew_sheet(plan, printed_at=PRINTED_AT))
+    text = cue_pages(pages, cue.number)
+    for step in procedure.main_steps + procedure.stop_steps:
+        assert flat(step.title) in text, step.title
+    assert "{{" not in text and "[not bound" not in text
+    assert "Caller Halden Voss" in text            # {{ crew.caller }} bound
+    assert "lifters Fenn Castell, Joss Penhaligon" in text
+    assert "**" not in text                         # Markdown emphasis became bold, not stars
+    assert procedure.version[:10] in text
+
+
+@pytest.mark.parametrize("source, expected", [
+    ("**the brake stays on** always", "<b>the brake stays on</b> always"),
+    ("*The Glass Orchard*, Aldmouth", "<i>The Glass Orchard</i>, Aldmouth"),
+    ("load < 140 kg & 2 * 3", "load &lt; 140 kg &amp; 2 * 3"),
+])
+def test_markdown_inline(source, expected):
+    from showops.sheets.crew import markdown_inline
+    assert markdown_inline(source) == expected

@@ -205,3 +205,17 @@ def test_each_thread_opens_the_store_once(app):
         t.join()
     assert all(a is b for a, b in seen)
     assert len({id(a) for a, _ in seen}) == 3
+
+
+def test_a_sign_in_is_a_row_of_the_show_log(client, auth, db, role_users):
+    from showops.store.log import verify_log
+
+    auth.login("mara")
+    auth.login("nobody", "wrong-password")  # a failed attempt is kept in login_attempt, not the log
+    rows = db.execute("SELECT event, person_name, role, device, detail FROM step_log").fetchall()
+    assert len(rows) == 1
+    event, name, role, device, detail = rows[0]
+    assert (event, name, role) == ("sign_in", "Mara Quill", "stage_manager")
+    assert len(device) == 12
+    assert '"method":"password"' in detail.replace(" ", "")
+    assert verify_log(db) is None

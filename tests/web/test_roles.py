@@ -27,10 +27,17 @@ EXPECTED = {
     "admin.set_pin": {"admin"},
     "admin.link_person": {"admin"},
     "admin.set_active": {"admin"},
+    "night.tonight": {"admin", "stage_manager", "crew", "viewer"},
+    "night.performances": {"admin", "stage_manager", "viewer"},
+    "night.running_order": {"admin", "stage_manager", "viewer"},
+    "night.crew_screen": {"crew"},
+    "rigs.index": {"admin", "stage_manager", "viewer"},
+    "rigs.show": {"admin", "stage_manager", "viewer"},
+    "rigs.change_limits": {"admin"},
 }
 
 #: Routes anyone may open without signing in.
-PUBLIC = {"static", "auth.sign_in", "auth.sign_in_pin", "auth.sign_out"}
+PUBLIC = {"static", "auth.sign_in", "auth.sign_in_pin", "auth.sign_out", "api.openapi"}
 
 
 def declared(app, endpoint):
@@ -90,6 +97,7 @@ POSTS = [
     ("/admin/users/ines/pin", {"admin"}),
     ("/admin/users/ines/person", {"admin"}),
     ("/admin/users/ines/active", {"admin"}),
+    ("/rigs/orchard-lift/limits", {"admin"}),
 ]
 
 

@@ -164,7 +164,7 @@ def _act(kind: str, performance_id: int, cue_id: int):
                     device_at=_device_at(data), note=_text(data, "note"))
     service = live_service()
     outcome = service.act(_db(), performance_id, cue_id, action)
-    cue = service.cue_status(_db(), performance_id, cue_id, person_id=action.actor.person_id)
+    cue = service.cue_status(_db(), performance_id, cue_id, person_id=action.actor.person_id, state=outcome.state)
     return jsonify({"row": outcome.row, "rows": list(outcome.rows), "cue": cue})
 
 
@@ -184,8 +184,9 @@ for _kind, _roles, _summary in (
     ("confirm", ACTING_ROLES, "Confirm a step (its role, in order, needs met, after its go)"),
     ("check", ACTING_ROLES, "Confirm the check of a step (a second person in the check role)"),
     ("hold", ACTING_ROLES, "HOLD: stop the cue for everyone"),
-    ("resume", ("admin", "stage_manager"), "Resume after a HOLD (stage manager only)"),
-    ("end", ("admin", "stage_manager"), "End a running cue early, recording its unfinished steps"),
+    # Crew may try these too: the runner refuses them (409) and the refusal is logged.
+    ("resume", ACTING_ROLES, "Resume after a HOLD (stage manager only; others are refused and logged)"),
+    ("end", ACTING_ROLES, "End a running cue early, recording its unfinished steps (stage manager only)"),
 ):
     _make_action(_kind, _roles, _summary)
 
@@ -204,8 +205,8 @@ def cue(performance_id: int, cue_id: int):
     return jsonify(service.cue_status(_db(), performance_id, cue_id, person_id=_person_id()))
 
 
-@route("/performances/<int:performance_id>/signoff", ("POST",), ("admin", "stage_manager"),
-       "Sign off the night (stage manager; no cue may still be running)", ACTION_BODY)
+@route("/performances/<int:performance_id>/signoff", ("POST",), ACTING_ROLES,
+       "Sign off the night (stage manager only; no cue may still be running)", ACTION_BODY)
 def signoff(performance_id: int):
     data = _body()
     outcome = live_service().signoff(_db(), performance_id, _actor(), note=_text(data, "note"),
@@ -246,13 +247,9 @@ def log_verify():
                     "problem": {"row_id": problem.row_id, "kind": problem.kind, "message": problem.message}})
 
 
-@bp.route("/openapi.json", methods=["GET"])
+@route("/openapi.json", ("GET",), ALL_ROLES, "This document: every route under /api/ (OpenAPI 3.0)")
 def openapi():
-    """The OpenAPI 3.0 document of every route under /api/ (public: it holds no data)."""
     return jsonify(openapi_document(current_app))
-
-
-DOCS["openapi"] = ("This document", (), None)
 
 _ERROR = {"$ref": "#/components/schemas/Error"}
 
