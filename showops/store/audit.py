@@ -20,7 +20,7 @@ from typing import Any, BinaryIO, Iterable
 import sqlite_utils
 
 from showops.audit import records as rec
-from showops.audit.deviations import Deviation, ProcedureFacts, scan
+from showops.audit.deviations import CUE_EVENTS, Deviation, ProcedureFacts, scan
 from showops.audit.report import Note, ShowReport, running_order, signoff_name
 from showops.audit.risk import assess
 from showops.audit.season import (ActionRef, CueRef, PerformanceRef, RecordRef, SeasonAudit, build_season,
@@ -193,7 +193,7 @@ def promote(db: sqlite_utils.Database, actor: Actor, deviation: Deviation, *, no
             narrative: str | None = None) -> int:
     """Make a deviation a near miss in one action; return the record's id.
 
-    The record points at the deviation's first row, carries its text as the narrative
+    The record points at the deviation's last row, carries its text as the narrative
     and its key, so the same deviation is never promoted twice.
 
     :raises Refused: when it was promoted already.
@@ -201,7 +201,9 @@ def promote(db: sqlite_utils.Database, actor: Actor, deviation: Deviation, *, no
     data = {"kind": "near_miss", "occurred_at": deviation.at_utc,
             "narrative": narrative or f"{deviation.title}: {deviation.text} (found in the log, rows "
                                       f"{', '.join(map(str, deviation.row_ids))})"}
-    record_id, _ = report(db, actor, data, step_log_id=deviation.row_ids[0] if deviation.row_ids else None,
+    # the last row is the one that shows the deviation (the late confirmation, the
+    # self-check, the brake going back on); the first is where it began
+    record_id, _ = report(db, actor, data, step_log_id=deviation.row_ids[-1] if deviation.row_ids else None,
                           performance_id=deviation.performance_id, deviation_key=deviation.key, now=now)
     return record_id
 
@@ -580,7 +582,7 @@ def show_report(db: sqlite_utils.Database, performance_ref: Any, *, now: datetim
     notes = [Note(*r) for r in db.execute("SELECT written_at, written_by, text FROM audit_note "
                                           "WHERE performance_id = ? ORDER BY id", [pid])]
     sign = info["signoff"]
-    last_cue_row = max((r["id"] for r in rows if r["cue_id"] is not None), default=0)
+    last_cue_row = max((r["id"] for r in rows if r["cue_id"] is not None and r["event"] in CUE_EVENTS), default=0)
     signed = sign is not None and sign["id"] > last_cue_row
     return ShowReport(pid, production, company, venue + (f", {town}" if town else ""),
                       starts, sm,
