@@ -590,6 +590,31 @@ def show_report(db: sqlite_utils.Database, performance_ref: Any, *, now: datetim
                       sign["at_utc"] if signed else None, info["first_row"], info["last_row"], info["last_hash"])
 
 
+_MARGIN_CACHE: dict[tuple, tuple] = {}
+
+
+def _margins(db, ids: list[int]):
+    """Each rig cue's limit usage per night, from the night plans (cached while the
+    riders, their masses and the rig versions stay the same)."""
+    from showops.store.show import night_plans
+
+    stamp = db.execute(
+        "SELECT (SELECT coalesce(max(id), 0) FROM rig_version), (SELECT coalesce(max(id), 0) FROM procedure_version),"
+        " (SELECT count(*) || ':' || total(performance_id * 7919 + cue_id * 104729 + person_id)"
+        "  FROM performance_rider), (SELECT total(mass_kg) || ':' || count(*) FROM performer),"
+        " (SELECT count(*) || ':' || total(id) FROM performance)").fetchone()
+    key = (_db_file(db), tuple(ids))
+    hit = _MARGIN_CACHE.get(key)
+    if hit is not None and hit[0] == stamp:
+        return list(hit[1])
+    wanted = set(ids)
+    found = margins_from_plans(p for p in night_plans(db) if p.performance_id in wanted)
+    if len(_MARGIN_CACHE) >= _SCAN_CACHE_MAX:
+        _MARGIN_CACHE.pop(next(iter(_MARGIN_CACHE)))
+    _MARGIN_CACHE[key] = (stamp, tuple(found))
+    return found
+
+
 def season_audit(db: sqlite_utils.Database, date_from: date, date_to: date, *, today: date | None = None,
                  now: datetime | None = None, with_margins: bool = True) -> SeasonAudit:
     """Count the season from the log and the records.
@@ -613,12 +638,7 @@ def season_audit(db: sqlite_utils.Database, date_from: date, date_to: date, *, t
         q = f"SELECT id, record_id, description, owner, due, state FROM audit_action WHERE record_id IN " \
             f"({', '.join('?' * len(rec_ids))}) ORDER BY id"
         actions = [ActionRef(i, r, d, o, date.fromisoformat(due), s) for i, r, d, o, due, s in db.execute(q, rec_ids)]
-    margins = []
-    if with_margins and ids:
-        from showops.store.show import night_plans
-
-        wanted = set(ids)
-        margins = margins_from_plans(p for p in night_plans(db) if p.performance_id in wanted)
+    margins = _margins(db, ids) if with_margins and ids else []
     return build_season(date_from, date_to, perfs, cues, devs, recs, actions, margins, today=today)
 
 
