@@ -96,6 +96,11 @@ def demo(instance: Path, force: bool) -> None:
         click.echo(f"    {what:<44} {path}")
     echo_caution()
     click.echo("")
+    if shutil.which("showops") is None:
+        import sys
+
+        click.echo(f"(showops is in {Path(sys.executable).parent}/: run "
+                   f"`source {Path(sys.executable).parent}/activate` to use the commands below)")
     click.echo("Next:")
     click.echo(f"  showops performances --instance {instance}")
     click.echo(f"  showops sheet \"{heavy.starts_at:%Y-%m-%d %H:%M}\" --out crew-sheet.pdf --instance {instance}")
