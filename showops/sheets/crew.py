@@ -491,7 +491,10 @@ def _checker_block(cue: CueNight) -> list:
 
 
 def _cue_pages(plan: NightPlan, cue: CueNight, width: float, footer: Footer, url: str) -> list:
-    story: list = [FooterContext(footer.state, (_versions_line(cue),)), _cue_header(cue, width, url),
+    head = f"CUE {cue.number} {cue.name} (continued)"
+    if cue.verdict != "ok":
+        head += f" - {VERDICT_WORDS[cue.verdict]}"
+    story: list = [FooterContext(footer.state, (_versions_line(cue),), head), _cue_header(cue, width, url),
                    Spacer(1, 3 * mm)]
     story += _verdict_block(cue, width)
     story += [Spacer(1, 3 * mm), *_riders_and_crew(cue, width)]
@@ -565,7 +568,7 @@ def _role_step_text(cue: CueNight, step, role: str) -> str:
 def _role_pages(plan: NightPlan, role: str, width: float, footer: Footer) -> list:
     """Everything ``role`` does all night: one table, a heading row per cue, a row per step."""
     title = "Riders" if role == RIDER_ROLE else role.capitalize()
-    story: list = [FooterContext(footer.state, _all_versions(plan)),
+    story: list = [FooterContext(footer.state, _all_versions(plan), f"ROLE: {title.upper()} (continued)"),
                    para(f"ROLE: {title.upper()}", "h1"),
                    para(f"Everything the {role} does tonight, cue by cue. {plan.production}, "
                         f"{_when(plan.starts_at)}.", "body_bold")]

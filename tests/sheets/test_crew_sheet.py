@@ -323,3 +323,17 @@ def test_the_shipped_procedure_prints_whole(tmp_path):
 def test_markdown_inline(source, expected):
     from showops.sheets.crew import markdown_inline
     assert markdown_inline(source) == expected
+
+
+def test_continued_pages_name_their_cue_and_say_do_not_run(heavy):
+    """A loose page of a blocked cue still says which cue it is and DO NOT RUN."""
+    plan, pages = heavy
+    cue5 = [p for p in pages if "Cue 5 - rig " in p]
+    assert len(cue5) >= 2
+    assert "(continued)" not in cue5[0]
+    for page in cue5[1:]:
+        assert "CUE 5 Orchard rise 2 (continued) - DO NOT RUN" in page
+    cue3 = [p for p in pages if "Cue 3 - rig " in p]
+    for page in cue3[1:]:
+        assert "CUE 3 Orchard rise 1 (continued)" in page
+        assert "DO NOT RUN" not in page
