@@ -141,6 +141,11 @@ def check_cue_procedure(procedure, rig_result, context: Mapping[str, Any] | None
     shape = _render_context()
     if shape is not None:
         context = shape(**{k: context[k] for k in ("load", "riders", "crew", "performance", "cue") if k in context})
+    # Judge the procedure itself: with tonight's load blocked, every step needing
+    # "load ok" would be a finding that only repeats the load's own reason (already a
+    # blocked reason of the cue) and would wrongly ask for the procedure to be changed.
+    if getattr(rig_result, "verdict", None) == "blocked":
+        rig_result = {**rig_result.to_dict(), "verdict": "ok", "reasons": []}
     kwargs: dict[str, Any] = {"rig_result": rig_result, "context": context}
     if rig_slug and _accepts(check, "rig_slug"):
         kwargs["rig_slug"] = rig_slug
@@ -478,6 +483,7 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     procedure = cue.procedure
     reasons: list[Reason] = []
     result = None
+    rider_reasons: list[Reason] = []
     if cue.rig_model is None:
         reasons.append(Reason(f"rig {cue.rig!r} has no readable rig file on record", limit="rig"))
     else:
@@ -498,7 +504,7 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     reasons += acts_and_checks(procedure, cue.crew, cue.riders)
     reasons += list(cue.readiness)
 
-    fixes = _fixes(cue, perf, reasons, ctx) if verdict_of(reasons) == "blocked" else ()
+    fixes = _fixes(cue, perf, reasons, rider_reasons, ctx) if verdict_of(reasons) == "blocked" else ()
     return replace(
         base,
         rig=cue.rig,
@@ -518,9 +524,6 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     )
 
 
-_RIDER_LIMITS = ("rider_clearance", "rehearsal")
-
-
 def _short(reason: Reason) -> str:
     """A few words for a reason, for a fix line that must not read like tonight's block."""
     words = reason.limit.split(":")[0].replace("_", " ")
@@ -529,7 +532,8 @@ def _short(reason: Reason) -> str:
     return words
 
 
-def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _Context) -> list[str]:
+def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], rider_reasons: list[Reason],
+           ctx: _Context) -> list[str]:
     """What would clear a blocked cue: the balance advisor, the other cast, a trained person."""
     fixes: list[str] = []
     blocked = [r for r in reasons if r.level == "blocked"]
@@ -545,7 +549,8 @@ def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _C
         if payload is not None and payload.value is not None and payload.allowed is not None:
             fixes.append(f"bring the riders' total (with allowance) down by {payload.value - payload.allowed:.0f} kg "
                          f"to the rated payload of {payload.allowed:.0f} kg")
-    rider_blocks = load_blocks + [r for r in blocked if r.limit in _RIDER_LIMITS]
+    # Only what tonight's riders cause (load, clearance, their rehearsal) can another cast clear.
+    rider_blocks = [r for r in rider_reasons if r.level == "blocked"]
     if rider_blocks and cue.rig_model is not None:
         tonight = sorted(r.person_id for r in cue.riders)
         for cast_name, cast in sorted(cue.casts.items()):
