@@ -158,6 +158,7 @@ def _render_context() -> Callable | None:
     return getattr(module, "render_context", None)
 
 
+@functools.lru_cache(maxsize=64)
 def _accepts(func: Callable, name: str) -> bool:
     import inspect
 
@@ -205,6 +206,7 @@ class RigSolver:
         self._cache: dict[tuple, Any] = {}
         self._dicts: dict[int, dict] = {}
         self._versions: dict[int, tuple[Any, str | None]] = {}
+        self._advice: dict[tuple, str | None] = {}
         #: procedure checker results, keyed by procedure version, result and staffed roles
         self.checked: dict[tuple, Any] = {}
         self.solves = 0
@@ -226,6 +228,13 @@ class RigSolver:
             self._cache[key] = result
             self.solves += 1
         return result
+
+    def advice(self, advisor: Callable, rig_model, rider_masses_kg: Sequence[float]) -> str | None:
+        """``advisor(rig_model, masses)``, once per advisor, rig version and riders."""
+        key = (id(advisor), self.version(rig_model), tuple(sorted(float(m) for m in rider_masses_kg)))
+        if key not in self._advice:
+            self._advice[key] = advisor(rig_model, list(rider_masses_kg))
+        return self._advice[key]
 
     def as_dict(self, result) -> dict:
         """``result.to_dict()``, computed once per result; each caller gets its own top-level copy."""
@@ -366,24 +375,42 @@ def acts_and_checks(procedure, crew: Sequence[tuple[str, CrewMember]], riders: S
     """
     if procedure is None:
         return []
+    pairs = _act_check_pairs(procedure)
+    if not pairs:
+        return []
     people: dict[str, set[tuple[int, str]]] = {}
     for role, person in crew:
         people.setdefault(role, set()).add((person.person_id, person.name))
     people.setdefault(RIDER_ROLE, set()).update((r.person_id, r.name) for r in riders)
     out, seen = [], set()
-    for step in tuple(getattr(procedure, "main_steps", ())) + tuple(getattr(procedure, "stop_steps", ())):
-        if not step.by or not step.check or step.by == step.check:
-            continue  # a step checked by its own role is the procedure checker's finding
-        for pid, name in sorted(people.get(step.by, set()) & people.get(step.check, set())):
-            key = (pid, step.by, step.check)
+    for by, check, number, title in pairs:
+        for pid, name in sorted(people.get(by, set()) & people.get(check, set())):
+            key = (pid, by, check)
             if key in seen:
                 continue
             seen.add(key)
-            out.append(Reason(f"{name} is assigned to both {step.by} and {step.check}: "
-                              f"step {step.number} \"{step.title}\" would be checked by the person who does it",
+            out.append(Reason(f"{name} is assigned to both {by} and {check}: "
+                              f"step {number} \"{title}\" would be checked by the person who does it",
                               limit="duty_separation",
-                              fix=f"assign a different person to {step.check}"))
+                              fix=f"assign a different person to {check}"))
     return out
+
+
+_PAIRS: dict[int, tuple[Any, tuple]] = {}
+
+
+def _act_check_pairs(procedure) -> tuple[tuple[str, str, int, str], ...]:
+    """(by, check, number, title) of every step acted and checked by two different roles, once per procedure."""
+    found = _PAIRS.get(id(procedure))
+    if found is None or found[0] is not procedure:
+        steps = tuple(getattr(procedure, "main_steps", ())) + tuple(getattr(procedure, "stop_steps", ()))
+        # a step checked by its own role is the procedure checker's finding, not a casting one
+        pairs = tuple((st.by, st.check, st.number, st.title) for st in steps
+                      if st.by and st.check and st.by != st.check)
+        if len(_PAIRS) > 64:
+            _PAIRS.clear()
+        found = _PAIRS[id(procedure)] = (procedure, pairs)
+    return found[1]
 
 
 # --------------------------------------------------------------------------- a cue, a night
@@ -511,7 +538,7 @@ def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _C
         result = ctx.solver(cue.rig_model, [r.mass_kg for r in cue.riders])  # cached
         load_blocks = [r for r in result.reasons if r.level == "blocked"]
     if load_blocks:
-        advice = ctx.advisor(cue.rig_model, [r.mass_kg for r in cue.riders])
+        advice = ctx.solver.advice(ctx.advisor, cue.rig_model, [r.mass_kg for r in cue.riders])
         if advice:
             fixes.append(advice)
         payload = next((r for r in load_blocks if r.limit == "rated_payload"), None)

@@ -68,7 +68,7 @@ def parse_day(value: Any, field: str) -> date:
 
 def _past_day(value: Any, field: str, today: date | None) -> date:
     day = parse_day(value, field)
-    today = today or _now().date()
+    today = today or date.today()
     if day > today:
         raise ValidationError(field, f"{day.isoformat()} is in the future (today is {today.isoformat()}); "
                                      "record what has happened")
@@ -514,7 +514,7 @@ def rig_events(db: sqlite_utils.Database, rig: str | None = None) -> list[RigEve
 
 def due(db: sqlite_utils.Database, today: date | None = None, days: int = 14) -> list[Due]:
     """Return what falls due (or is overdue) on every rig within ``days`` of ``today``."""
-    today = today or _now().date()
+    today = today or date.today()
     if isinstance(days, bool) or not isinstance(days, int) or days < 0:
         raise ValidationError("days", f"expected a whole number of days, 0 or more, got {days!r}")
     out: list[Due] = []
@@ -840,8 +840,8 @@ def readiness_reasons(db: sqlite_utils.Database, performance_id: int, cue: Any, 
     :param cue: a :class:`showops.show.model.CueNight` (``cue_id``, ``rig`` and, when
         given, ``load`` are read; the riders and crew come from the casting tables), or
         a cue id.
-    :param as_of: the day it is now (default: today, UTC); records made on the night
-        block from the performance's day on.
+    :param as_of: the day it is now (default: the machine's local date, the venue's);
+        records made on the night block from the performance's day on.
     :returns: reasons with ``limit`` one of ``inspection``, ``preshow``, ``briefing``,
         ``rehearsal``, ``area_release``, ``objection``, ``equipment``; none for a cue
         that uses no rig.
@@ -861,7 +861,7 @@ def readiness_reasons(db: sqlite_utils.Database, performance_id: int, cue: Any, 
     team = snap.teams.get((performance_id, cue_id), ())
     if not team and not isinstance(cue, int):
         team = participants_of(cue)
-    return cue_readiness(snap.context(performance_id, rig, cue_id, team, as_of or _now().date(),
+    return cue_readiness(snap.context(performance_id, rig, cue_id, team, as_of or date.today(),
                                       getattr(cue, "load", None)), snap.memo)
 
 
@@ -1015,7 +1015,7 @@ def rig_status(db: sqlite_utils.Database, performance_id: int, rig: str, *, as_o
     (every reason of every cue on the rig, once each), ``line`` (one line).
     """
     perf, day = performance_day(db, performance_id)
-    as_of = as_of or _now().date()
+    as_of = as_of or date.today()
     rules = rule_set_for(db, rig)
     insp = [i for i in inspections(db, rig) if i.passed and i.on <= day]
     last = insp[-1].on if insp else None

@@ -11,6 +11,7 @@ from __future__ import annotations
 import os
 import shutil
 import threading
+from pathlib import Path
 
 import pytest
 
@@ -75,3 +76,41 @@ def sign_in(page, base_url: str, username: str, password: str):
     page.fill("input[name=username]", username)
     page.fill("input[name=password]", password)
     page.click("#sign-in-form button[type=submit]")
+
+
+@pytest.fixture
+def ready_demo(demo, db):
+    """The demo with its care records (inspections, rehearsals, briefings, releases) and
+    sign-ins: at the next performance the orchard lift's "Windfall" is ready to run."""
+    from datetime import date
+
+    from showops.store.care import seed_demo_care
+
+    ids, made = demo
+    seed_demo_care(db, ids, date.today())
+    return ids, made
+
+
+@pytest.fixture
+def screenshots(tmp_path):
+    """Where screenshots go: $SHOWOPS_SCREENSHOTS, or the test's temporary folder."""
+    folder = os.environ.get("SHOWOPS_SCREENSHOTS")
+    path = Path(folder) if folder else tmp_path / "screens"
+    path.mkdir(parents=True, exist_ok=True)
+    return path
+
+
+def open_as(new_page, base_url: str, username: str, path: str, *, password: str | None = None,
+            width: int = 412, height: int = 860):
+    """A person's own device: a fresh context, signed in, on ``path``."""
+    from showops.store.users import DEMO_PASSWORD
+
+    page = new_page(width=width, height=height)
+    errors = []
+    page.on("pageerror", lambda exc: errors.append(str(exc)))
+    page.js_errors = errors
+    sign_in(page, base_url, username, password or DEMO_PASSWORD)
+    page.wait_for_url(lambda url: "/sign-in" not in url)
+    page.goto(base_url + path)
+    page.wait_for_selector("#link-status.link-ok")
+    return page

@@ -64,6 +64,7 @@
                  device_at: new Date().toISOString() };
     if (extra) { for (var k in extra) { item[k] = extra[k]; } }
     queue.push(item);
+    lastPress = { at: Date.now(), client_id: item.client_id };
     saveQueue();
     showMessage(null);
     render();
@@ -115,13 +116,22 @@
   function poll(now) {
     if (timer) { window.clearTimeout(timer); timer = null; }
     if (now !== true && document.hidden && view === "running-order") { timer = window.setTimeout(poll, pollMs); return; }
-    api("GET", "/api/performances/" + pid).then(function (data) {
+    // Ask for the night and the followed cue at once (one round trip, not two); fetch
+    // another cue only when the night says the followed one changed.
+    var guess = shownCue;
+    var cueAsk = guess === null ? Promise.resolve(null)
+      : api("GET", "/api/performances/" + pid + "/cues/" + guess);
+    Promise.all([api("GET", "/api/performances/" + pid), cueAsk]).then(function (both) {
+      var data = both[0];
       night = data;
       lastContact = Date.now();
       var target = chooseCue(data);
       if (target === null) { cue = null; shownCue = null; return null; }
       shownCue = target;
-      return api("GET", "/api/performances/" + pid + "/cues/" + target).then(function (c) { cue = c; });
+      if (target === guess && both[1]) { cue = both[1]; return null; }
+      return api("GET", "/api/performances/" + pid + "/cues/" + target).then(function (c) {
+        if (shownCue === target) { cue = c; }
+      });
     }).then(function () {
       setLink(true);
       render();
@@ -139,17 +149,33 @@
     return raw ? raw.split(",").map(Number) : [];
   }
 
+  var finishedNote = "";
+
   function chooseCue(data) {
-    if (data.live_cue) { return data.live_cue; }
     var i;
+    for (i = 0; i < data.cues.length; i++) {
+      var was = data.cues[i];
+      if (was.cue_id === shownCue && (was.status === "complete" || was.status === "ended")) {
+        finishedNote = "Cue " + was.number + " · " + was.name + (was.status === "complete" ? " complete." : " ended early.");
+      }
+    }
+    if (data.live_cue) { finishedNote = ""; return data.live_cue; }
     if (view === "crew") {
       for (i = 0; i < data.cues.length; i++) { if (data.cues[i].next) { return data.cues[i].cue_id; } }
-      var mine = myCueIds();
+      // the next of this person's cues after the last one run, else the first not yet run
+      var mine = myCueIds(), after = -1, first = null;
       for (i = 0; i < data.cues.length; i++) {
         var c = data.cues[i];
-        if (mine.indexOf(c.cue_id) >= 0 && c.status === "waiting") { return c.cue_id; }
+        if (c.status === "complete" || c.status === "ended") { after = i; }
       }
-      return null;
+      for (i = 0; i < data.cues.length; i++) {
+        var d = data.cues[i];
+        if (mine.indexOf(d.cue_id) >= 0 && d.status === "waiting") {
+          if (i > after) { return d.cue_id; }
+          if (first === null) { first = d.cue_id; }
+        }
+      }
+      return first;
     }
     // the running order keeps showing the last cue it followed (finished) until another starts
     return shownCue;
@@ -185,6 +211,20 @@
     if (!cue || !key) { return null; }
     for (var i = 0; i < cue.steps.length; i++) { if (cue.steps[i].key === key) { return cue.steps[i]; } }
     return null;
+  }
+
+  // The roles this person holds on the followed cue tonight.
+  function myRoles() {
+    if (!cue || personId === null) { return []; }
+    return cue.crew.filter(function (c) { return c.person_id === personId; }).map(function (c) { return c.role; });
+  }
+
+  function actsIn(step) {
+    var roles = myRoles();
+    if (roles.indexOf(step.by) >= 0) { return true; }
+    // a performer's step is answered by the caller when no performer holds a screen
+    var riderOnCrew = cue.crew.some(function (c) { return c.role === step.by; });
+    return step.by === "rider" && !riderOnCrew && roles.indexOf("caller") >= 0;
   }
 
   function cueLabel(c) { return "Cue " + c.number + " · " + c.name; }
@@ -298,6 +338,7 @@
     if (!cue) {
       cueLine.textContent = night ? night.production : "";
       title.textContent = "No cue for you right now";
+      if (finishedNote) { why.hidden = false; why.textContent = "Last: " + finishedNote; }
       return;
     }
     var current = stepByKey(cue.current_step);
@@ -308,6 +349,7 @@
         title.textContent = cue.status === "complete" ? "Cue complete" : "Cue ended";
       } else if (cue.status === "waiting") {
         title.textContent = "Waiting for the stage manager to start the cue";
+        if (finishedNote) { why.hidden = false; why.textContent = "Last: " + finishedNote; }
       } else {
         title.textContent = current ? "Now: " + current.title : "Nothing for you now";
         if (current) {
@@ -334,7 +376,7 @@
     }
     if (a.why) { why.hidden = false; why.textContent = a.why; }
     button.hidden = false;
-    button.textContent = a.button;
+    button.textContent = unsentFor(a.kind, a.step) ? "SENDING…" : a.button;
     button.disabled = !a.enabled;
     button.setAttribute("data-kind", a.kind);
     button.setAttribute("data-step", a.step || "");
@@ -381,6 +423,15 @@
       li.appendChild(head);
       var line = el("div", "step-state", stepStateText(s));
       li.appendChild(line);
+      if (canAct && cue.status !== "complete" && cue.status !== "ended" && !s.confirmed_at && actsIn(s)) {
+        // The caller's own steps (and the riders' steps they answer for): the server
+        // enforces the order, so a press out of turn is refused with the reason.
+        var b = el("button", "quiet step-confirm", "Confirm step " + s.number);
+        b.type = "button";
+        b.setAttribute("data-confirm-step", s.key);
+        b.disabled = !!unsentFor("confirm", s.key);
+        li.appendChild(b);
+      }
       if (s.overdue_s) {
         li.appendChild(el("div", "step-overdue-note", "OVERDUE: " + Math.round(s.overdue_s) + " s past its " + s.hold_s + " s hold"));
       }
@@ -435,7 +486,18 @@
     if (sob) { sob.disabled = night.signed_off || anyLive; }
   }
 
+  // When this screen first showed each new log row (for measuring how fast news travels).
+  var seen = [];
+  var lastPress = null;
+
   function render() {
+    if (night) {
+      root.setAttribute("data-last-log-id", String(night.last_log_id));
+      if (!seen.length || night.last_log_id > seen[seen.length - 1][0]) {
+        seen.push([night.last_log_id, Date.now()]);
+        if (seen.length > 500) { seen.shift(); }
+      }
+    }
     drawHold();
     drawCard();
     drawSteps();
@@ -460,6 +522,9 @@
       var step = target.getAttribute("data-step") || null;
       if (kind === "wait") { return; }
       act(kind, shownCue, step, labelFor(kind, step));
+    } else if (target.hasAttribute("data-confirm-step")) {
+      var key = target.getAttribute("data-confirm-step");
+      act("confirm", shownCue, key, labelFor("confirm", key));
     } else if (target.id === "hold-button") {
       if (shownCue) { act("hold", shownCue, null, "HOLD on " + (cue ? cueLabel(cue) : "the cue")); }
     } else if (target.id === "resume-button") {
@@ -478,7 +543,16 @@
   });
 
   window.addEventListener("online", function () { flush(); poll(true); });
-  window.showopsLive = { queue: function () { return queue.slice(); }, poll: poll };
+  window.showopsLive = {
+    queue: function () { return queue.slice(); },
+    poll: poll,
+    lastPress: function () { return lastPress; },
+    // the time (ms since the epoch) this screen first showed log row ``id`` or a later one
+    seenAt: function (id) {
+      for (var i = 0; i < seen.length; i++) { if (seen[i][0] >= id) { return seen[i][1]; } }
+      return null;
+    }
+  };
   render();
   poll(true);
   if (queue.length) { flush(); }
