@@ -10,16 +10,15 @@ from __future__ import annotations
 import math
 import re
 from datetime import datetime, timezone
-from typing import Any, Iterable, Sequence
+from typing import Any, Sequence
 
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, KeepTogether, PageBreak, Spacer, Table, TableStyle
 
-from showops import CAUTION
-from showops.sheets.common import (INK, PAPER, Bold, TINT_CAUTION, Footer, FooterContext, LimitBar, QRCode, TickBox,
-                                   VERDICT_WORDS, banner, build_pdf, caution_block, content_width,
-                                   format_figure, grid_table, limit_table, page_size, para, short_hash,
-                                   signoff_table, text, verdict_paragraph, verdict_style)
+from showops.sheets.common import (INK, PAPER, TINT_CAUTION, VERDICT_WORDS, Bold, Footer, FooterContext,
+                                   LimitBar, QRCode, TickBox, banner, build_pdf, caution_block, content_width,
+                                   grid_table, limit_table, page_size, para, short_hash, signoff_table, text,
+                                   verdict_paragraph, verdict_style)
 from showops.show.model import CueNight, NightPlan
 
 #: The port the live show log listens on at the venue (the live app's default).
@@ -486,7 +485,7 @@ def _checker_block(cue: CueNight) -> list:
         for finding in cue.findings:
             out.append(para(f"- {finding}", "body"))
     else:
-        out.append(para(f"Procedure checker: no findings (rule set {rules}).", "body_bold"))
+        out.append(para(f"Procedure checker: OK, no findings (rule set {rules}).", "body_bold"))
     return [KeepTogether(out)]
 
 
