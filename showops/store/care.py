@@ -858,11 +858,18 @@ def readiness_reasons(db: sqlite_utils.Database, performance_id: int, cue: Any, 
         return []
     if performance_id not in snap.perf_days:
         raise NotFound(f"performance: performance {performance_id} does not exist")
+    as_of = as_of or date.today()
     team = snap.teams.get((performance_id, cue_id), ())
+    key = ("cue", performance_id, cue_id, rig, as_of)
+    if team and key in snap.memo:  # the same cue asked again (the sheet's cover, then its page)
+        return list(snap.memo[key])
     if not team and not isinstance(cue, int):
         team = participants_of(cue)
-    return cue_readiness(snap.context(performance_id, rig, cue_id, team, as_of or date.today(),
-                                      getattr(cue, "load", None)), snap.memo)
+    reasons = cue_readiness(snap.context(performance_id, rig, cue_id, team, as_of, getattr(cue, "load", None)),
+                            snap.memo)
+    if snap.teams.get((performance_id, cue_id)):
+        snap.memo[key] = tuple(reasons)
+    return reasons
 
 
 class _Snapshot:
@@ -877,6 +884,10 @@ class _Snapshot:
         self.db = db
         self.perf_days = {i: datetime.fromisoformat(s).date() for i, s in q("SELECT id, starts_at FROM performance")}
         self.cue_rigs = dict(q("SELECT id, rig_slug FROM cue"))
+        self.rig_cues_of: dict[int, list[int]] = {}
+        for perf, cue_id in q("SELECT p.id, c.id FROM performance p JOIN cue c ON c.production_id = p.production_id "
+                              "WHERE c.rig_slug IS NOT NULL ORDER BY p.id, c.position, c.id"):
+            self.rig_cues_of.setdefault(perf, []).append(cue_id)
         teams: dict[tuple[int, int], list[Participant]] = {}
         for perf, cue_id, role, pid, name in q(
                 "SELECT c.performance_id, c.cue_id, c.role, p.id, p.name FROM performance_crew c "
@@ -1238,9 +1249,7 @@ def performance_readiness(db: sqlite_utils.Database, performance_id: int, *,
     if performance_id not in snap.perf_days:
         raise NotFound(f"performance: performance {performance_id} does not exist")
     out: list[Reason] = []
-    for (cue_id,) in db.execute("SELECT c.id FROM cue c JOIN performance p ON p.production_id = c.production_id "
-                                "WHERE p.id = ? AND c.rig_slug IS NOT NULL ORDER BY c.position, c.id",
-                                [performance_id]).fetchall():
+    for cue_id in snap.rig_cues_of.get(performance_id, ()):
         for reason in readiness_reasons(db, performance_id, cue_id, as_of=as_of):
             if reason not in out:
                 out.append(reason)
