@@ -681,6 +681,13 @@ def seed_demo_audit(db: sqlite_utils.Database, demo_ids: Any, *, now: datetime |
     chosen = min(devs, key=lambda d: (rank.get(d.rule, 9), d.row_ids))
     sm = Actor(demo_data.STAGE_MANAGER, "stage_manager", person_id=getattr(demo_ids, "stage_manager", None))
     record_id = promote(db, sm, chosen, now=now)
+    row = _log_row(db, chosen.row_ids[-1])
+    amend(db, sm, record_id, {
+        "people": [{"name": row["person_name"] or "", "role": row["role"] or ""}] if row["person_name"] else [],
+        "doing": "running cue {} '{}', step {}".format(
+            *(db.execute("SELECT number, name FROM cue WHERE id = ?", [row["cue_id"]]).fetchone() or ("?", "?")),
+            row["step_key"] or "?"),
+        "immediate_action": "the caller held the next go until every lifter had called ready"}, now=now)
     classify(db, sm, record_id, kind="near_miss", likelihood=3, severity_actual="E", severity_potential="C",
              now=now)
     investigate(db, sm, record_id, {
