@@ -53,6 +53,9 @@ def _registry():
 
 
 # "4 ft 6 in" style compound lengths: pint reads "4 ft 6 in" as a product, so split.
+#: Longer strings are refused before pint sees them.
+MAX_QUANTITY_CHARS = 100
+
 _COMPOUND = re.compile(r"^\s*(?:[-+]?\d[\d.]*(?:e[-+]?\d+)?\s*[a-zA-Z\"']+\s*){2,}$")
 _TERM = re.compile(r"([-+]?\d[\d.]*(?:e[-+]?\d+)?)\s*([a-zA-Z\"']+)")
 
@@ -80,12 +83,16 @@ def to_si(value: object, dimension: Dimension, *, what: str = "value") -> float:
     return result
 
 
-def _parse(text: str, dimension: Dimension, what: str) -> float:
+def _parse(text: str, dimension: Dimension, what: str, *, compound: bool = True) -> float:
     text = text.strip().replace("·", "*")
     if not text:
         raise UnitError(f"{what}: expected a {dimension} with a unit, got an empty string")
-    if _COMPOUND.match(text):
-        return sum(_parse(f"{n} {u}", dimension, what) for n, u in _TERM.findall(text))
+    if len(text) > MAX_QUANTITY_CHARS:
+        # pint's parser recurses on nested brackets; a quantity is a few words at most.
+        raise UnitError(f"{what}: {text[:20]!r}... is {len(text)} characters; give a number and a unit")
+    terms = _TERM.findall(text) if compound and _COMPOUND.match(text) else []
+    if len(terms) >= 2:  # "4 ft 6 in": each term on its own, never split again
+        return sum(_parse(f"{n} {u}", dimension, what, compound=False) for n, u in terms)
     import pint
 
     ureg = _registry()
@@ -93,17 +100,19 @@ def _parse(text: str, dimension: Dimension, what: str) -> float:
         quantity = ureg.Quantity(text)
     except Exception as exc:  # pint's parser raises many unrelated types on bad text
         raise UnitError(f"{what}: cannot read {text!r} as a {dimension} ({_short(exc)})") from None
-    if not hasattr(quantity, "to"):
-        # A bare number given as a string ("1.2"): take it as SI, like a TOML number.
-        return float(quantity)
-    if quantity.dimensionless and dimension != "dimensionless":
-        return float(quantity.magnitude)
     try:
+        if not hasattr(quantity, "to"):
+            # A bare number given as a string ("1.2"): take it as SI, like a TOML number.
+            return float(quantity)
+        if quantity.dimensionless and dimension != "dimensionless":
+            return float(quantity.magnitude)
         return float(quantity.to(_SI_UNIT[dimension]).magnitude)
     except pint.errors.DimensionalityError:
         raise UnitError(
             f"{what}: {text!r} is not a {dimension} (give it in {_example(dimension)})"
         ) from None
+    except Exception as exc:  # a complex or non-numeric magnitude, an overflow
+        raise UnitError(f"{what}: cannot read {text!r} as a {dimension} ({_short(exc)})") from None
 
 
 def _short(exc: Exception) -> str:

@@ -105,3 +105,11 @@ def test_frame_rig_imperial():
     result = CliRunner().invoke(main, ["rig", "solve", str(path), "--riders", "60", "--imperial"])
     assert result.exit_code == 0, result.output
     assert f"{si['operator_force_n'] / LBF:,.1f} lbf" in result.output
+
+
+@pytest.mark.parametrize("text", ["(" * 400 + "1 m" + ")" * 400, "1e999999 m", "(1+2j) m", "m " * 60])
+def test_pathological_strings_are_refused_with_a_unit_error(text):
+    # Found by fuzzing: deep brackets, an overflowing exponent (once read as a
+    # compound "1 e ... m" and split forever) must be refused, never crash.
+    with pytest.raises(UnitError):
+        to_si(text, "length", what="geometry.front_arm")
