@@ -428,15 +428,15 @@ class _Context:
     advisor: Callable[[Any, Sequence[float]], str | None] = advisor_text
     checker: Callable[..., tuple[list[str] | None, str | None]] = check_cue_procedure
 
-    def check(self, procedure, result, context, rig_slug=None):
-        """Run the checker once per procedure version, rig result and set of staffed roles."""
+    def check(self, procedure, result, context: Callable[[], dict], rig_slug, roles: tuple, riders: int):
+        """Run the checker once per procedure version, rig result, staffed roles and number
+        of riders (what a placeholder or a rule can see); ``context()`` builds its input."""
         if procedure is None:
-            return self._run(procedure, result, context, rig_slug)
-        key = (id(self.checker), self.solver.version(procedure), id(result), rig_slug,
-               tuple(sorted(context["crew"])), len(context["riders"]))
+            return self._run(procedure, result, context(), rig_slug)
+        key = (id(self.checker), self.solver.version(procedure), id(result), rig_slug, roles, riders)
         found = self.solver.checked.get(key)
         if found is None:
-            found = self.solver.checked[key] = self._run(procedure, result, context, rig_slug)
+            found = self.solver.checked[key] = self._run(procedure, result, context(), rig_slug)
         return found
 
     def _run(self, procedure, result, context, rig_slug):
@@ -489,12 +489,16 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     else:
         result, rider_reasons = _rider_reasons(cue, cue.riders, perf.starts_at, ctx)
         reasons += rider_reasons
-    context = {"load": ctx.solver.as_dict(result) if result is not None else None,
-               "riders": [r.name for r in cue.riders],
-               "crew": {role: [p.name for r2, p in cue.crew if r2 == role] for role, _ in cue.crew},
-               "performance": {"id": perf.performance_id, "starts_at": perf.starts_at.isoformat()},
-               "cue": {"number": cue.number, "name": cue.name}}
-    findings, rule_set = ctx.check(procedure, result, context, cue.rig) if result is not None else (None, None)
+    def context() -> dict[str, Any]:  # built only when the checker has not seen this case
+        return {"load": ctx.solver.as_dict(result) if result is not None else None,
+                "riders": [r.name for r in cue.riders],
+                "crew": {role: [p.name for r2, p in cue.crew if r2 == role] for role, _ in cue.crew},
+                "performance": {"id": perf.performance_id, "starts_at": perf.starts_at.isoformat()},
+                "cue": {"number": cue.number, "name": cue.name}}
+
+    roles = tuple(sorted({role for role, _ in cue.crew}))
+    findings, rule_set = (ctx.check(procedure, result, context, cue.rig, roles, len(cue.riders))
+                          if result is not None else (None, None))
     reasons += procedure_reasons(procedure, findings)
     staffing = unstaffed_roles(procedure, cue.crew, cue.riders, cue.rig_model)
     staffing += role_not_held(cue.crew)
