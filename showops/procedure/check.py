@@ -371,7 +371,7 @@ def needs_are_met(run: CheckRun) -> Iterator[Finding]:
             if _holds((subject, value), visit.before, run.physics):
                 continue
             if subject == "load":
-                unmet.append(f'needs "load ok" but the rig verdict is blocked'
+                unmet.append('needs "load ok" but the rig verdict is blocked'
                              + (f" ({run.physics.load_reason})" if run.physics.load_reason else ""))
             elif subject not in visit.before:
                 unmet.append(f'needs "{subject} {value}" but no earlier step sets it')

@@ -322,7 +322,6 @@ def _solve_batch(model: FrameModel, coords_m, load_scale) -> FrameSolution:
     plan = _plan(model)
     coords = np.asarray(coords_m, dtype=float)
     batch = coords.shape[0]
-    n_mem = len(model.members)
     ndof = 3 * plan.n_nodes
 
     d = coords[:, plan.ends] - coords[:, plan.starts]             # (B, m, 2)

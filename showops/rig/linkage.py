@@ -22,7 +22,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Sequence
 
-from showops.errors import RigFileError, ValidationError
+from showops.errors import ValidationError
 from showops.rig.checks import (Check, PermanentSums, StateResult, check, permanent_sums,
                                 reason_for, state_from_parts, tipping_checks)
 from showops.rig.fields import TableReader

@@ -13,9 +13,9 @@ People, performances, cues and rigs are the show tables' (``person``,
 from __future__ import annotations
 
 import json
-from dataclasses import replace
 from datetime import date, datetime, timezone
 from functools import lru_cache
+from pathlib import Path
 from typing import Any, Callable, Iterable, Sequence
 
 import sqlite_utils
@@ -1070,10 +1070,8 @@ def rig_status(db: sqlite_utils.Database, performance_id: int, rig: str, *, as_o
 
 # --------------------------------------------------------------------------- the demo
 
-def checks_dir() -> "Path":
+def checks_dir() -> Path:
     """Return the folder of the shipped pre-show checklists (``procedures/checks``)."""
-    from pathlib import Path
-
     return Path(__file__).resolve().parents[2] / "procedures" / "checks"
 
 
@@ -1115,7 +1113,6 @@ def seed_demo_care(db: sqlite_utils.Database, demo_ids: Any, today: date, *, fol
 
     notes: list[str] = []
     rigs = set(demo_ids.rigs)
-    people = demo_ids.people
     cues = demo_ids.cues
     examiner = _ensure_person(db, "Lise Armitage")
     head = d.STAGE_MANAGER

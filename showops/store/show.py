@@ -15,7 +15,7 @@ import hashlib
 import importlib
 import math
 import re
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from datetime import date, datetime, timezone
 from typing import Any, Iterable, Sequence
 

@@ -16,7 +16,7 @@ import csv
 import json
 import re
 from collections import Counter
-from datetime import date, datetime, timedelta, timezone
+from datetime import datetime, timedelta, timezone
 
 import pypdf
 import pytest

@@ -7,7 +7,7 @@ examination (from memory); DGUV Vorschrift 17 §15 and §20 (from memory).
 
 from __future__ import annotations
 
-from datetime import date, timedelta
+from datetime import date
 
 import pytest
 

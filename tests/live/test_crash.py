@@ -11,7 +11,6 @@ SQLite WAL with synchronous=FULL, committed before the answer (SQLite documentat
 
 from __future__ import annotations
 
-import os
 import random
 import signal
 import socket

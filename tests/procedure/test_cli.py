@@ -24,7 +24,7 @@ def runner():
 def test_check_clean_exits_0(runner):
     result = runner.invoke(main, ["procedure", "check", str(ORCHARD), "--rig", str(ORCHARD_RIG), "--riders", "62,55"])
     assert result.exit_code == 0, result.output
-    assert f"clean: 14 steps and 7 stop steps" in result.output
+    assert "clean: 14 steps and 7 stop steps" in result.output
     assert RULE_SET_VERSION in result.output
     assert "Caution:" in result.output
 
