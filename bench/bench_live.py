@@ -187,6 +187,41 @@ def raw_commit_rate(folder: Path, seconds: float) -> float:
     return rate
 
 
+def group_commit_rates(folder: Path, seconds: float, threads: int = 8) -> tuple[float, float, float]:
+    """In-process, no HTTP: ``threads`` callers appending one log row each, as fast as
+    they can, (a) each on its own connection through append_events (one FULL commit per
+    row), (b) through one LogWriter (group commit). Returns (a, b, rows per batch)."""
+    from showops.store import open_db
+    from showops.store.log import LogWriter, append_events
+
+    def drive(make_append) -> float:
+        counts = [0] * threads
+        stop = time.monotonic() + seconds
+
+        def run(i):
+            append = make_append()
+            while time.monotonic() < stop:
+                append([{"event": "step_confirmed", "person_id": i, "detail": {"n": counts[i]}}])
+                counts[i] += 1
+
+        t0 = time.monotonic()
+        ts = [threading.Thread(target=run, args=(i,)) for i in range(threads)]
+        for t in ts:
+            t.start()
+        for t in ts:
+            t.join()
+        return sum(counts) / (time.monotonic() - t0)
+
+    own = folder / "gc-own"
+    open_db(own).conn.close()
+    per_commit = drive(lambda: (lambda db: (lambda events: append_events(db, events)))(open_db(own)))
+    writer = LogWriter(folder / "gc-writer")
+    grouped = drive(lambda: writer.append)
+    per_batch = writer.units / max(1, writer.batches)
+    writer.close()
+    return per_commit, grouped, per_batch
+
+
 def check_log(instance: Path, devices: list[BenchDevice]) -> tuple[int, int, bool]:
     """(acknowledged, missing or duplicated, chain ok) after the run."""
     from showops.store import open_db
@@ -250,6 +285,7 @@ def main() -> None:
     finally:
         server.stop()
     raw = raw_commit_rate(folder, 3.0)
+    per_commit, grouped, per_batch = group_commit_rates(folder, 3.0)
     acked, bad, chain_ok = check_log(instance, show_devices + sat_devices)
     errors = [e for d in show_devices + sat_devices for e in d.errors]
 
@@ -266,6 +302,8 @@ def main() -> None:
           f"(p50 {pct(sat_lat, 50) * ms:.1f} ms, p99 {pct(sat_lat, 99) * ms:.1f} ms)")
     print(f"(3) raw SQLite, one row per commit, WAL, synchronous=FULL, same disk: {raw:7.1f} commits/s")
     print(f"    ratio (2)/(3): {rate / raw:.2f}  (goal >= 0.5)")
+    print(f"(4) in-process, 8 threads appending log rows: one FULL commit per row {per_commit:7.1f} rows/s; "
+          f"through the LogWriter {grouped:7.1f} rows/s ({per_batch:.1f} rows per commit)")
     print(f"log: {acked} acknowledged, {bad} lost or duplicated, chain {'verifies' if chain_ok else 'BROKEN'}, "
           f"{len(errors)} errors" + (f" (first: {errors[0]})" if errors else ""))
     print(f"server CPU: {1000 * (cpu1 - cpu0) / max(1, len(polls) + len(confirms)):.1f} ms per request under "

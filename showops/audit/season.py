@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 from datetime import date
+from functools import cached_property
 from typing import Any, Iterable, Mapping, Sequence
 
 from showops.audit.deviations import RULES, Deviation
@@ -80,15 +81,15 @@ class Margin:
     label: str
     usage_by_performance: tuple[tuple[int, float], ...]   # (performance id, figure / limit)
 
-    @property
+    @cached_property
     def worst_usage(self) -> float:
         return max(u for _, u in self.usage_by_performance)
 
-    @property
+    @cached_property
     def worst_performance(self) -> int:
         return max(self.usage_by_performance, key=lambda pu: pu[1])[0]
 
-    @property
+    @cached_property
     def least_margin(self) -> float:
         """1 - worst usage: the share of the limit left on the closest night."""
         return 1.0 - self.worst_usage

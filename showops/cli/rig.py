@@ -173,3 +173,17 @@ def sweep(rig_file: Path, riders: str | None, out_dir: Path, points: int) -> Non
     for path in written:
         click.echo(f"wrote {path}")
     echo_caution()
+
+
+@rig.command("kinds")
+def kinds() -> None:
+    """List the kinds of rig file showops can read (docs/rig-file.md documents each).
+
+    \b
+    Example:
+      showops rig kinds
+    """
+    from showops.rig import KINDS
+
+    for name in sorted(KINDS):
+        click.echo(f"{name:<18} {KINDS[name].summary}")

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import json
 import shutil
-from datetime import date, datetime
+from datetime import date, datetime, timezone
 from pathlib import Path
 
 import click
@@ -65,7 +65,10 @@ def demo(instance: Path, force: bool) -> None:
     report = build_demo(db, date.today())
     ids = report.ids
     plans = store.night_plans(db)
-    db.conn.close()
+    try:
+        papers = _write_demo_papers(db, Path(instance), plans, ids)
+    finally:
+        db.conn.close()
 
     from showops.show import demo_data as d
 
@@ -88,11 +91,50 @@ def demo(instance: Path, force: bool) -> None:
             pin = f", PIN {user['pin']}" if user.get("pin") else ""
             click.echo(f"    {user['username']:<10} {user['role']:<14} {user['name']}{pin}")
     heavy = next(p for p in plans if p.performance_id == ids.heavy_performance)
+    click.echo("  Papers:")
+    for what, path in papers:
+        click.echo(f"    {what:<44} {path}")
+    echo_caution()
     click.echo("")
+    if shutil.which("showops") is None:
+        import sys
+
+        click.echo(f"(showops is in {Path(sys.executable).parent}/: run "
+                   f"`source {Path(sys.executable).parent}/activate` to use the commands below)")
     click.echo("Next:")
     click.echo(f"  showops performances --instance {instance}")
     click.echo(f"  showops sheet \"{heavy.starts_at:%Y-%m-%d %H:%M}\" --out crew-sheet.pdf --instance {instance}")
     click.echo(f"  showops serve --instance {instance}")
+
+
+def _write_demo_papers(db, instance: Path, plans, ids) -> list[tuple[str, Path]]:
+    """Write the papers a stage manager would print from the demo: the crew sheets of
+    the next performance and of the heavy-understudy night, and the past night's show
+    report. Returns (what, path) pairs."""
+    from showops.cli.sheet import _default_live_host, write_atomically
+    from showops.sheets import render_crew_sheet
+    from showops.sheets.report import render_show_report
+    from showops.store.audit import show_report
+
+    folder = instance / "papers"
+    folder.mkdir(parents=True, exist_ok=True)
+    written: list[tuple[str, Path]] = []
+    upcoming = [p for p in plans if p.performance_id != ids.past_performance and p.starts_at >= datetime.now()]
+    chosen = {p.performance_id: p for p in upcoming[:1]}
+    chosen.update({p.performance_id: p for p in plans if p.performance_id == ids.heavy_performance})
+    for plan in sorted(chosen.values(), key=lambda p: p.starts_at):
+        path = folder / f"crew-sheet-{plan.starts_at:%Y-%m-%d-%H%M}.pdf"
+        write_atomically(path, render_crew_sheet(plan, live_url=_default_live_host()))
+        label = "crew sheet, " + f"{plan.starts_at:%a %d %b %H:%M}"
+        if plan.performance_id == ids.heavy_performance:
+            label += " (understudy night)"
+        written.append((label, path))
+    past = next(p for p in plans if p.performance_id == ids.past_performance)
+    path = folder / f"show-report-{past.starts_at:%Y-%m-%d-%H%M}.pdf"
+    render_show_report(show_report(db, str(ids.past_performance)), str(path),
+                       printed_at=datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC"))
+    written.append((f"show report, {past.starts_at:%a %d %b %H:%M}", path))
+    return written
 
 
 # --------------------------------------------------------------------------- performances

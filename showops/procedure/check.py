@@ -311,7 +311,13 @@ def file_is_well_formed(run: CheckRun) -> Iterator[Finding]:
     if not proc.roles:
         yield Finding(proc.header_lines.get("roles", 1), None, name,
                       'no "Roles:" header: list the roles, e.g. "Roles: caller, spotter, brake, lifters, rider"')
+    phase_titles: dict[str, int] = {}
     for phase in proc.phases:
+        if phase.title.casefold() in phase_titles:
+            yield Finding(phase.line, None, name, f'two phases titled "{phase.title}" (first at line '
+                                                  f'{phase_titles[phase.title.casefold()]}): step keys would clash',
+                          phase.title)
+        phase_titles.setdefault(phase.title.casefold(), phase.line)
         seen: dict[str, int] = {}
         for step in phase.steps:
             key = step.title.casefold()

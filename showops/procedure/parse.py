@@ -31,10 +31,12 @@ from showops.procedure.model import (
 MAX_PROCEDURE_BYTES = 1_000_000
 
 _LINE_BREAK = re.compile(r"\r\n|\r|\n")
-_HEADER = re.compile(r"^([A-Za-z][A-Za-z0-9 _-]{0,30}):[ \t]*(.*?)\s*$")
-_HEADING = re.compile(r"^ {0,3}(#{1,6})(?:[ \t]+(.*?))?(?:[ \t]+#+)?[ \t]*$")
-_BULLET = re.compile(r"^ {0,3}[-*+][ \t]+(.*?)\s*$")
-_FIELD = re.compile(r"^([A-Za-z][A-Za-z _-]{0,30}?)[ \t]*:[ \t]*(.*?)\s*$")
+# No pattern here has a lazy group followed by optional whitespace and an anchor: on a
+# 1 MB line of spaces that backtracks quadratically. Values are stripped in Python.
+_HEADER = re.compile(r"^([A-Za-z][A-Za-z0-9 _-]{0,30}):(.*)$")
+_HEADING = re.compile(r"^ {0,3}(#{1,6})(?:[ \t](.*))?$")
+_BULLET = re.compile(r"^ {0,3}[-*+][ \t](.*)$")
+_FIELD = re.compile(r"^([A-Za-z][A-Za-z _-]{0,30}?)[ \t]*:(.*)$")
 _FENCE = re.compile(r"^ {0,3}(```|~~~)")
 _HOLD = re.compile(r"^([0-9]+(?:\.[0-9]+)?)\s*(s|sec|secs|second|seconds|min|mins|minute|minutes)?$", re.I)
 #: Characters no text file holds (tab, line breaks and form feed are allowed).
@@ -135,6 +137,16 @@ def state_problem(word: str) -> str | None:
     return f'unknown state "{word}"{hint}; states are ' + ", ".join(STATE_WORDS)
 
 
+def _heading_text(text: str) -> str:
+    """A heading's text without its optional closing ``#`` sequence."""
+    text = text.strip()
+    if text.endswith("#"):
+        bare = text.rstrip("#")
+        if not bare or bare[-1] in " \t":
+            text = bare.strip()
+    return text
+
+
 def _unquote(value: str) -> str:
     value = value.strip()
     if len(value) >= 2 and value[0] in _QUOTES and value[-1] in _QUOTES:
@@ -228,11 +240,11 @@ class _Parser:
                 continue
             heading = _HEADING.match(line) if first == "#" else None
             if heading:
-                self.on_heading(len(heading.group(1)), (heading.group(2) or "").strip(), number)
+                self.on_heading(len(heading.group(1)), _heading_text(heading.group(2) or ""), number)
                 continue
             bullet = _BULLET.match(line) if first in ("-", "*", "+") else None
             if bullet:
-                self.on_bullet(bullet.group(1), number, line)
+                self.on_bullet(bullet.group(1).strip(), number, line)
                 continue
             if not first or not line.strip():
                 self.end_field()

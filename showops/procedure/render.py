@@ -52,8 +52,6 @@ MAX_PLACEHOLDER_CHARS = 400
 #: A string or list built inside a placeholder may not grow beyond this.
 MAX_BUILT_LENGTH = 10_000
 
-_PLACEHOLDER = re.compile(r"\{\{(.*?)\}\}", re.S)
-_STATEMENT = re.compile(r"\{%.*?%\}", re.S)
 _LINE_BREAK = re.compile(r"\r\n|\r|\n")
 
 
@@ -129,35 +127,56 @@ class PlaceholderProblem:
     message: str
 
 
+def _pairs(text: str, opening: str, closing: str) -> tuple[list[tuple[int, int]], int | None]:
+    """Spans of ``opening … closing`` (the first closing after each opening) and the
+    offset of an opening never closed. Linear in the text: a regex with a lazy group
+    rescans the rest of the text from every unclosed opening."""
+    spans = []
+    pos = 0
+    while True:
+        start = text.find(opening, pos)
+        if start < 0:
+            return spans, None
+        end = text.find(closing, start + len(opening))
+        if end < 0:
+            return spans, start
+        spans.append((start, end + len(closing)))
+        pos = end + len(closing)
+
+
+class _LineCounter:
+    """1-based line of an offset, for offsets asked in increasing order."""
+
+    def __init__(self, text: str):
+        self.text, self.line, self.last = text, 1, 0
+
+    def at(self, offset: int) -> int:
+        self.line += len(_LINE_BREAK.findall(self.text, self.last, offset))
+        self.last = offset
+        return self.line
+
+
 def find_placeholders(text: str) -> list[Placeholder]:
     """Return every ``{{ … }}`` in ``text`` with its 1-based line."""
-    found = []
-    line, last = 1, 0
-    for match in _PLACEHOLDER.finditer(text):
-        line += len(_LINE_BREAK.findall(text, last, match.start()))
-        last = match.start()
-        found.append(Placeholder(line=line, start=match.start(), end=match.end(), expression=match.group(1)))
-    return found
+    spans, _ = _pairs(text, "{{", "}}")
+    lines = _LineCounter(text)
+    return [Placeholder(line=lines.at(start), start=start, end=end, expression=text[start + 2:end - 2])
+            for start, end in spans]
 
 
 def find_unclosed(text: str) -> list[int]:
-    """Return the lines of ``{{`` openings with no ``}}`` after them."""
-    lines = []
-    stripped = _PLACEHOLDER.sub(lambda m: " " * len(m.group(0)), text)
-    for index, line in enumerate(split_lines(stripped), 1):
-        if "{{" in line:
-            lines.append(index)
-    return lines
+    """Return the line of a ``{{`` with no ``}}`` after it (at most one: the first)."""
+    _, unclosed = _pairs(text, "{{", "}}")
+    return [] if unclosed is None else [_LineCounter(text).at(unclosed)]
 
 
 def find_statements(text: str) -> list[tuple[int, str]]:
     """Return ``{% … %}`` tags (which are not bound: only ``{{ }}`` placeholders are)."""
-    out = []
-    line, last = 1, 0
-    for match in _STATEMENT.finditer(text):
-        line += len(_LINE_BREAK.findall(text, last, match.start()))
-        last = match.start()
-        out.append((line, match.group(0)[:60]))
+    spans, unclosed = _pairs(text, "{%", "%}")
+    lines = _LineCounter(text)
+    out = [(lines.at(start), text[start:end][:60]) for start, end in spans]
+    if unclosed is not None:
+        out.append((lines.at(unclosed), text[unclosed:unclosed + 60]))
     return out
 
 
@@ -346,12 +365,74 @@ def bind_placeholder(expression: str, context: Mapping[str, Any]) -> tuple[str, 
     return f"[{label}: {{{{{expression.strip()[:60]}}}}}]", problem
 
 
+#: Python-Markdown is quadratic in some inline constructs (unmatched "[" most of all)
+#: and recursive in nesting; a procedure is a few kB of plain prose and steps. Text past
+#: these budgets is shown as escaped preformatted text instead of being parsed, so a
+#: hostile file renders in well under a second (bench: tests/procedure/test_render.py).
+MAX_MARKDOWN_CHARS = 200_000
+MAX_BLOCK_CHARS = 4_000
+#: "[" and "<" open links, images, autolinks and raw HTML: each one makes the parser
+#: scan ahead through its block, so they are the costliest marks.
+MAX_BLOCK_OPENERS = 20
+MAX_OPENERS = 100
+MAX_BLOCK_MARKS = 200
+MAX_MARKS = 2_000
+MAX_INDENT = 12
+#: A line that opens this many lists or quotes at its start ("- - - - x", ">>>> x")
+#: nests that deep in one line; its first marker is escaped so it reads as text.
+MAX_LINE_NESTING = 4
+_MARKS = re.compile(r"[*_`\[\]<>&!\\~|]")
+_NESTING = re.compile(r"^[ \t]*(?:(?:[-*+]|[0-9]{1,9}[.)])[ \t]+|>[ \t]*){%d,}" % MAX_LINE_NESTING)
+_BLANK_LINES = re.compile(r"\n[ \t]*\n")
+
+
+def _openers(text: str) -> int:
+    return text.count("[") + text.count("<")
+
+
+def _plain_block(text: str) -> str:
+    return f'\n\n<pre class="plain">{html.escape(text)}</pre>\n\n'
+
+
+def _tame_line(line: str) -> str:
+    """Cap a line's indent and nesting (deep nesting recurses in the parser)."""
+    stripped = line.lstrip(" \t")
+    indent = line[: len(line) - len(stripped)].expandtabs(4)
+    if len(indent) > MAX_INDENT:
+        indent = " " * MAX_INDENT
+    if _NESTING.match(stripped):
+        stripped = "\\" + stripped
+    return indent + stripped
+
+
+def markdown_to_html(text: str) -> str:
+    """Convert Markdown ``text`` to (unsanitised) HTML within the budgets above.
+
+    Blocks (paragraphs between blank lines) over a budget are shown verbatim, escaped,
+    in ``<pre class="plain">``; so is the whole text when it is over the total budgets.
+    """
+    if len(text) > MAX_MARKDOWN_CHARS or _openers(text) > MAX_OPENERS or len(_MARKS.findall(text)) > MAX_MARKS:
+        return _plain_block(text)
+    blocks = _BLANK_LINES.split("\n".join(_tame_line(line) for line in text.split("\n")))
+    safe = []
+    for block in blocks:
+        if len(block) > MAX_BLOCK_CHARS or _openers(block) > MAX_BLOCK_OPENERS \
+                or len(_MARKS.findall(block)) > MAX_BLOCK_MARKS:
+            safe.append(_plain_block(block))
+        else:
+            safe.append(block)
+    try:
+        return markdown.markdown("\n\n".join(safe), extensions=["sane_lists", "tables"], output_format="html")
+    except RecursionError:  # a nesting the budgets above did not foresee: show the text
+        return _plain_block(text)
+
+
 def _token(index: int) -> str:
     return f"SHOWOPSPLACEHOLDER{index:06d}Z"
 
 
 _ALLOWED_ATTRIBUTES = {tag: set(attrs) for tag, attrs in nh3.ALLOWED_ATTRIBUTES.items()}
-for _tag in ("span", "p", "div", "dl", "section", "h1", "h2", "h3"):
+for _tag in ("span", "p", "div", "dl", "section", "h1", "h2", "h3", "pre"):
     _ALLOWED_ATTRIBUTES.setdefault(_tag, set()).add("class")
 
 
@@ -373,14 +454,17 @@ def render_procedure_html(procedure: Procedure, context: Mapping[str, Any] | Non
     pieces: list[str] = []
     replacements: list[str] = []
 
-    def substitute(match: re.Match) -> str:
-        value, problem = bind_placeholder(match.group(1), context)
+    parts = []
+    last = 0
+    for placeholder in find_placeholders(body):
+        value, problem = bind_placeholder(placeholder.expression, context)
         css = "placeholder" if problem is None else f"placeholder {problem.kind}"
         replacements.append(f'<span class="{css}">{html.escape(value)}</span>')
-        return _token(len(replacements) - 1)
-
-    tokenised = _PLACEHOLDER.sub(substitute, body)
-    converted = markdown.markdown(tokenised, extensions=["sane_lists", "tables"], output_format="html")
+        parts += [body[last:placeholder.start], _token(len(replacements) - 1)]
+        last = placeholder.end
+    parts.append(body[last:])
+    tokenised = "".join(parts)
+    converted = markdown_to_html(tokenised)
     converted = re.sub(r"SHOWOPSPLACEHOLDER(\d{6})Z",
                        lambda m: replacements[int(m.group(1))] if int(m.group(1)) < len(replacements) else "",
                        converted)

@@ -171,8 +171,19 @@ def state_from_parts(name: str, description: str, permanent: PermanentSums,
         else:
             r_stb_q -= about_rear
     front = moment / (xf - xr)
-    m_front = _margin(permanent.front_dst, f_dst_q, permanent.front_stb, f_stb_q, tipping)
-    m_rear = _margin(permanent.rear_dst, r_dst_q, permanent.rear_stb, r_stb_q, tipping)
+    # the margins, written out (this runs five times in every linkage solve): see _margin
+    if tipping == EQU:
+        f_dst = GAMMA_G_DST * permanent.front_dst + GAMMA_Q_DST * f_dst_q
+        f_stb = GAMMA_G_STB * permanent.front_stb + GAMMA_Q_STB * f_stb_q
+        r_dst = GAMMA_G_DST * permanent.rear_dst + GAMMA_Q_DST * r_dst_q
+        r_stb = GAMMA_G_STB * permanent.rear_stb + GAMMA_Q_STB * r_stb_q
+        factor = 1.0
+    else:
+        f_dst, f_stb = permanent.front_dst + f_dst_q, permanent.front_stb + f_stb_q
+        r_dst, r_stb = permanent.rear_dst + r_dst_q, permanent.rear_stb + r_stb_q
+        factor = float(tipping)
+    m_front = f_stb / f_dst / factor if f_dst > 1e-9 else None
+    m_rear = r_stb / r_dst / factor if r_dst > 1e-9 else None
     if m_rear is not None and (m_front is None or m_rear < m_front):
         return StateResult(name, description, front, total - front, m_rear, "rear")
     return StateResult(name, description, front, total - front, m_front, "front")
@@ -216,10 +227,11 @@ def tipping_checks(states: Iterable[StateResult], tipping: str | float, caution_
     method = EQU if tipping == EQU else f"factor {float(tipping):g}"
     out = []
     for state in states:
-        if state.tipping_margin is None:
+        margin = state.tipping_margin
+        if margin is None:
             continue
-        usage = 1.0 / state.tipping_margin if state.tipping_margin > 0 else math.inf
-        out.append(Check(f"tipping:{state.state}",
-                         f"tipping {state.tipping_about}wards, {state.state} ({method})",
-                         state.tipping_margin, 1.0, "", usage, level_for(usage, caution_at)))
+        usage = 1.0 / margin if margin > 0 else math.inf
+        level = "blocked" if usage > 1.0 + 1e-12 else "caution" if usage >= caution_at else "ok"
+        out.append(Check("tipping:" + state.state, f"tipping {state.tipping_about}wards, {state.state} ({method})",
+                         margin, 1.0, "", usage, level))
     return out

@@ -8,10 +8,14 @@ fix any of a node's three freedoms. Loads are forces and moments at nodes, point
 forces at a distance along a member, and uniform forces per metre of a member, all
 given in global axes (``x`` horizontal, ``y`` up).
 
-Everything is vectorised over the members and over a batch of geometries, so a sweep
-(the same machine at a thousand beam angles) is one assembly and one batched
-``numpy.linalg.solve``. The model is plain data (:class:`FrameModel`); solving never
-changes it, so a stale result cannot be read after a change.
+Everything is vectorised over the members and over a batch of geometries (the same
+machine at a thousand beam angles). In a batch, members whose length and direction do
+not change (a lift's bracket and arms as the beams swing) are assembled once and the
+freedoms only they touch are condensed out once; the rest is solved for the whole
+batch by a Cholesky factorisation, which is also the check for a mechanism (a pivot
+that vanishes after scaling to a unit diagonal). Reactions come from the member end
+forces by node equilibrium. The model is plain data (:class:`FrameModel`); solving
+never changes it, so a stale result cannot be read after a change.
 
 Sign conventions of the results: reactions are the forces of the supports on the
 frame in global axes; member end forces are in member axes (``x`` from the start
@@ -25,7 +29,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import lru_cache
-from typing import Sequence
 
 import numpy as np
 
@@ -600,12 +603,3 @@ def _mechanism(model: FrameModel, dof: int) -> FrameModelError:
         "without straining any member; add a support (the lifters are a vertical support at the "
         "handle) or remove a pin")
 
-
-def node_positions(model: FrameModel) -> np.ndarray:
-    """Return the model's node coordinates as an ``(nodes, 2)`` array."""
-    return np.asarray(model.coords_m, dtype=float)
-
-
-def member_names(model: FrameModel) -> Sequence[str]:
-    """Return the members' names in order."""
-    return [mb.name for mb in model.members]

@@ -20,8 +20,6 @@ from dataclasses import dataclass, field
 from functools import cached_property
 from typing import Any, Literal, Sequence
 
-import numpy as np
-
 from showops.errors import RigFileError
 from showops.rig.checks import (EQU, Check, StateResult, check, reason_for, stability,
                                 tipping_checks)

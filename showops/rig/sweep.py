@@ -153,7 +153,7 @@ def plot_sweeps(rig: LinkageRig, handle: HandleSweep, angle: AngleSweep, path: P
     from matplotlib.figure import Figure
 
     lim = rig.limits
-    fig = Figure(figsize=(11, 12), dpi=100, layout="constrained")
+    fig = Figure(figsize=(11, 13), dpi=100, layout="constrained")
     axes = fig.subplots(3, 1)
     fig.suptitle(f"{rig.name}: {riders_label or 'nobody aboard'} "
                  f"(riders' weight x {lim.dynamic_factor:g})", fontsize=15, fontweight="bold")
@@ -180,7 +180,7 @@ def plot_sweeps(rig: LinkageRig, handle: HandleSweep, angle: AngleSweep, path: P
         lines = ax.get_lines() + twin.get_lines()
         ax.legend([l for l in lines if not l.get_label().startswith("_")],
                   [l.get_label() for l in lines if not l.get_label().startswith("_")],
-                  loc="best", fontsize=9, framealpha=0.9)
+                  loc="upper center", bbox_to_anchor=(0.5, -0.2), ncol=4, fontsize=9, frameon=False)
         return ax
 
     ax = pull_and_moment(axes[0], handle.handle_x_m, handle.operator_force_per_person_n, handle.stand_moment_nm,

@@ -11,7 +11,8 @@ from reportlab.graphics.charts.legends import Legend
 from reportlab.graphics.charts.lineplots import LinePlot
 from reportlab.graphics.shapes import Drawing, Line, Rect, String
 from reportlab.lib import colors
-from reportlab.platypus import PageBreak, Paragraph, Spacer
+from reportlab.lib.units import mm
+from reportlab.platypus import CondPageBreak, Paragraph, Spacer
 
 from showops.audit.records import KINDS
 from showops.audit.risk import LIKELIHOODS, MATRIX, MATRIX_EDITION, REGION_MEANING, SEVERITIES
@@ -148,7 +149,7 @@ def render_season_audit(season: SeasonAudit, out, *, printed_at: str, title: str
                        [[r, s, str(d), str(n)] for r, s, d, n in season.by_step],
                        [0.2 * width, 0.5 * width, 0.15 * width, 0.15 * width]))
 
-    story.append(PageBreak())
+    story.append(CondPageBreak(90 * mm))
     story.append(Paragraph("Load margin of each rig cue across the run", H2))
     story.append(p("For each rig cue and each limit: the closest night (highest figure / limit) and the share of "
                    "the limit left then. From each night's plan for its riders; the bar's mark is the limit.", SMALL))
@@ -157,7 +158,7 @@ def render_season_audit(season: SeasonAudit, out, *, printed_at: str, title: str
         rows = []
         for m in sorted(season.margins, key=lambda m: -m.worst_usage):
             night = perf.get(m.worst_performance)
-            rows.append([m.cue, m.rig, m.label, f"{100 * m.worst_usage:.0f} %", f"{100 * m.least_margin:.0f} %",
+            rows.append([m.cue, m.rig, m.label, f"{100 * m.worst_usage:.0f} %", (f"{100 * m.least_margin:.0f} %" if m.least_margin >= 0 else f"OVER {-100 * m.least_margin:.0f} %"),
                          night.day if night else str(m.worst_performance), usage_bar(m.worst_usage)])
         story.append(table(["Cue", "Rig", "Limit", "Worst", "Left", "Night", ""], rows,
                            [w * width for w in (0.2, 0.13, 0.25, 0.08, 0.08, 0.11, 0.15)]))

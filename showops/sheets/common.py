@@ -53,6 +53,8 @@ from showops.errors import ValidationError
 PAGE_SIZES: dict[str, tuple[float, float]] = {"A4": A4, "Letter": LETTER}
 
 MARGIN = 12 * mm
+#: room above the text frame for the running head of continued pages
+TOP_MARGIN = 17 * mm
 FOOTER_HEIGHT = 17 * mm
 
 INK = colors.black
@@ -549,20 +551,26 @@ class FooterState:
     """What the footer shows for the page being laid out; changed by :class:`FooterContext`."""
 
     lines: tuple[str, ...] = ()
-    qr: str | None = None
+    #: a running head for the part's second and later pages ("CUE 5 ... continued")
+    head: str | None = None
+    #: whether the part's marker was drawn on the page being laid out
+    fresh: bool = False
 
 
 class FooterContext(Flowable):
     """An invisible marker: from the page it lands on, the footer shows ``lines``.
 
     Put one at the start of each part whose footer differs (a cue's page names its rig
-    and procedure versions). It takes no space.
+    and procedure versions). It takes no space. ``head``, when given, is printed in
+    bold at the top of the part's second and later pages, so a loose page still says
+    which cue it belongs to (and DO NOT RUN when the cue is blocked).
     """
 
-    def __init__(self, state: FooterState, lines: Sequence[str]):
+    def __init__(self, state: FooterState, lines: Sequence[str], head: str | None = None):
         super().__init__()
         self.state = state
         self.lines = tuple(lines)
+        self.head = head
         self.width = self.height = 0
 
     def wrap(self, avail_width, avail_height):
@@ -570,6 +578,8 @@ class FooterContext(Flowable):
 
     def draw(self):
         self.state.lines = self.lines
+        self.state.head = self.head
+        self.state.fresh = True
 
 
 class _NumberedCanvas(rl_canvas.Canvas):
@@ -600,18 +610,27 @@ class Footer:
     fixed: tuple[str, ...]
     printed_at: datetime
     state: FooterState = field(default_factory=FooterState)
-    per_page: list[tuple[str, ...]] = field(default_factory=list)
+    per_page: list[tuple[tuple[str, ...], str | None]] = field(default_factory=list)
 
     def capture(self, canv, doc) -> None:
-        """Record the context lines of the page just finished (a PageTemplate ``onPageEnd``)."""
-        self.per_page.append(self.state.lines)
+        """Record the context of the page just finished (a PageTemplate ``onPageEnd``)."""
+        head = None if self.state.fresh else self.state.head
+        self.per_page.append((self.state.lines, head))
+        self.state.fresh = False
 
     def draw(self, canv, number: int, total: int) -> None:
-        width, _ = canv._pagesize
+        width, height = canv._pagesize
         lines = list(self.fixed)
-        context = self.per_page[number - 1] if number - 1 < len(self.per_page) else ()
+        context, head = self.per_page[number - 1] if number - 1 < len(self.per_page) else ((), None)
         lines += list(context)
         canv.saveState()
+        if head:
+            canv.setFillColor(INK)
+            size = 11
+            while size > 7 and canv.stringWidth(head, "Helvetica-Bold", size) > width - 2 * MARGIN:
+                size -= 0.5
+            canv.setFont("Helvetica-Bold", size)
+            canv.drawString(MARGIN, height - TOP_MARGIN + 5 * mm, head)
         canv.setStrokeColor(INK)
         canv.setLineWidth(1)
         top = MARGIN + FOOTER_HEIGHT - 4 * mm
@@ -653,10 +672,10 @@ def build_pdf(flowables: Sequence[Flowable], *, pagesize: tuple[float, float], t
     buffer = io.BytesIO()
     width, height = pagesize
     doc = BaseDocTemplate(buffer, pagesize=pagesize, leftMargin=MARGIN, rightMargin=MARGIN,
-                          topMargin=MARGIN, bottomMargin=MARGIN + FOOTER_HEIGHT, title=title,
+                          topMargin=TOP_MARGIN, bottomMargin=MARGIN + FOOTER_HEIGHT, title=title,
                           author=author, subject=subject, creator=f"showops {__version__}",
                           invariant=1)
-    frame = Frame(MARGIN, MARGIN + FOOTER_HEIGHT, width - 2 * MARGIN, height - 2 * MARGIN - FOOTER_HEIGHT,
+    frame = Frame(MARGIN, MARGIN + FOOTER_HEIGHT, width - 2 * MARGIN, height - MARGIN - TOP_MARGIN - FOOTER_HEIGHT,
                   leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0, id="body")
     doc.addPageTemplates([PageTemplate(id="sheet", frames=[frame], onPageEnd=footer.capture)])
     doc.build(list(flowables), canvasmaker=lambda *a, **k: _NumberedCanvas(*a, footer=footer, **k))

@@ -10,16 +10,15 @@ from __future__ import annotations
 import math
 import re
 from datetime import datetime, timezone
-from typing import Any, Iterable, Sequence
+from typing import Any, Sequence
 
 from reportlab.lib.units import mm
 from reportlab.platypus import CondPageBreak, KeepTogether, PageBreak, Spacer, Table, TableStyle
 
-from showops import CAUTION
-from showops.sheets.common import (INK, PAPER, Bold, TINT_CAUTION, Footer, FooterContext, LimitBar, QRCode, TickBox,
-                                   VERDICT_WORDS, banner, build_pdf, caution_block, content_width,
-                                   format_figure, grid_table, limit_table, page_size, para, short_hash,
-                                   signoff_table, text, verdict_paragraph, verdict_style)
+from showops.sheets.common import (INK, PAPER, TINT_CAUTION, VERDICT_WORDS, Bold, Footer, FooterContext,
+                                   LimitBar, QRCode, TickBox, banner, build_pdf, caution_block, content_width,
+                                   grid_table, limit_table, page_size, para, short_hash, signoff_table, text,
+                                   verdict_paragraph, verdict_style)
 from showops.show.model import CueNight, NightPlan
 
 #: The port the live show log listens on at the venue (the live app's default).
@@ -486,12 +485,15 @@ def _checker_block(cue: CueNight) -> list:
         for finding in cue.findings:
             out.append(para(f"- {finding}", "body"))
     else:
-        out.append(para(f"Procedure checker: no findings (rule set {rules}).", "body_bold"))
+        out.append(para(f"Procedure checker: OK, no findings (rule set {rules}).", "body_bold"))
     return [KeepTogether(out)]
 
 
 def _cue_pages(plan: NightPlan, cue: CueNight, width: float, footer: Footer, url: str) -> list:
-    story: list = [FooterContext(footer.state, (_versions_line(cue),)), _cue_header(cue, width, url),
+    head = f"CUE {cue.number} {cue.name} (continued)"
+    if cue.verdict != "ok":
+        head += f" - {VERDICT_WORDS[cue.verdict]}"
+    story: list = [FooterContext(footer.state, (_versions_line(cue),), head), _cue_header(cue, width, url),
                    Spacer(1, 3 * mm)]
     story += _verdict_block(cue, width)
     story += [Spacer(1, 3 * mm), *_riders_and_crew(cue, width)]
@@ -565,7 +567,7 @@ def _role_step_text(cue: CueNight, step, role: str) -> str:
 def _role_pages(plan: NightPlan, role: str, width: float, footer: Footer) -> list:
     """Everything ``role`` does all night: one table, a heading row per cue, a row per step."""
     title = "Riders" if role == RIDER_ROLE else role.capitalize()
-    story: list = [FooterContext(footer.state, _all_versions(plan)),
+    story: list = [FooterContext(footer.state, _all_versions(plan), f"ROLE: {title.upper()} (continued)"),
                    para(f"ROLE: {title.upper()}", "h1"),
                    para(f"Everything the {role} does tonight, cue by cue. {plan.production}, "
                         f"{_when(plan.starts_at)}.", "body_bold")]

@@ -101,7 +101,7 @@ def render_show_report(report, out, *, printed_at: str) -> None:
     :param printed_at: ISO time printed in the footer (passed in so a PDF can be
         reproduced byte for byte).
     """
-    from reportlab.platypus import PageBreak, Spacer
+    from reportlab.platypus import CondPageBreak, Spacer
 
     from showops.audit.deviations import RULES
     from showops.audit.records import KINDS
@@ -133,9 +133,10 @@ def render_show_report(report, out, *, printed_at: str) -> None:
     for c in r.running_order:
         rows.append([c.cue.number, c.cue.name, c.cue.rig or "", hhmm(c.started_at), hhmm(c.completed_at),
                      duration(c.started_at, c.completed_at), str(len(c.confirmations)), str(c.holds),
-                     str(c.refusals), "not run" if not c.started_at else ("" if c.completed_at else "NOT COMPLETED")])
+                     str(c.refusals), ("not run" if c.cue.rig else "no rig") if not c.started_at
+                     else ("" if c.completed_at else "NOT COMPLETED")])
     story.append(table(["Cue", "Name", "Rig", "Started", "Ended", "Took", "Steps", "Holds", "Refused", ""], rows,
-                       [w * width for w in (0.07, 0.22, 0.13, 0.09, 0.09, 0.07, 0.07, 0.07, 0.08, 0.11)]))
+                       [w * width for w in (0.06, 0.21, 0.13, 0.09, 0.09, 0.06, 0.07, 0.07, 0.1, 0.12)]))
 
     story.append(Paragraph("Deviations found in the log", H2))
     cue_names = {c.cue.id: c.cue.number for c in r.running_order}
@@ -177,7 +178,7 @@ def render_show_report(report, out, *, printed_at: str) -> None:
 
     runs = [c for c in rig_runs if c.confirmations]
     if runs:
-        story.append(PageBreak())
+        story.append(CondPageBreak(60 * mm))
         story.append(Paragraph("Who confirmed what", H2))
         for c in runs:
             story.append(Paragraph(escape(f"{c.cue.number} {c.cue.name} ({c.cue.rig})"),

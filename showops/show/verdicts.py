@@ -141,6 +141,11 @@ def check_cue_procedure(procedure, rig_result, context: Mapping[str, Any] | None
     shape = _render_context()
     if shape is not None:
         context = shape(**{k: context[k] for k in ("load", "riders", "crew", "performance", "cue") if k in context})
+    # Judge the procedure itself: with tonight's load blocked, every step needing
+    # "load ok" would be a finding that only repeats the load's own reason (already a
+    # blocked reason of the cue) and would wrongly ask for the procedure to be changed.
+    if getattr(rig_result, "verdict", None) == "blocked":
+        rig_result = {**rig_result.to_dict(), "verdict": "ok", "reasons": []}
     kwargs: dict[str, Any] = {"rig_result": rig_result, "context": context}
     if rig_slug and _accepts(check, "rig_slug"):
         kwargs["rig_slug"] = rig_slug
@@ -158,6 +163,7 @@ def _render_context() -> Callable | None:
     return getattr(module, "render_context", None)
 
 
+@functools.lru_cache(maxsize=64)
 def _accepts(func: Callable, name: str) -> bool:
     import inspect
 
@@ -205,6 +211,7 @@ class RigSolver:
         self._cache: dict[tuple, Any] = {}
         self._dicts: dict[int, dict] = {}
         self._versions: dict[int, tuple[Any, str | None]] = {}
+        self._advice: dict[tuple, str | None] = {}
         #: procedure checker results, keyed by procedure version, result and staffed roles
         self.checked: dict[tuple, Any] = {}
         self.solves = 0
@@ -226,6 +233,13 @@ class RigSolver:
             self._cache[key] = result
             self.solves += 1
         return result
+
+    def advice(self, advisor: Callable, rig_model, rider_masses_kg: Sequence[float]) -> str | None:
+        """``advisor(rig_model, masses)``, once per advisor, rig version and riders."""
+        key = (id(advisor), self.version(rig_model), tuple(sorted(float(m) for m in rider_masses_kg)))
+        if key not in self._advice:
+            self._advice[key] = advisor(rig_model, list(rider_masses_kg))
+        return self._advice[key]
 
     def as_dict(self, result) -> dict:
         """``result.to_dict()``, computed once per result; each caller gets its own top-level copy."""
@@ -366,24 +380,42 @@ def acts_and_checks(procedure, crew: Sequence[tuple[str, CrewMember]], riders: S
     """
     if procedure is None:
         return []
+    pairs = _act_check_pairs(procedure)
+    if not pairs:
+        return []
     people: dict[str, set[tuple[int, str]]] = {}
     for role, person in crew:
         people.setdefault(role, set()).add((person.person_id, person.name))
     people.setdefault(RIDER_ROLE, set()).update((r.person_id, r.name) for r in riders)
     out, seen = [], set()
-    for step in tuple(getattr(procedure, "main_steps", ())) + tuple(getattr(procedure, "stop_steps", ())):
-        if not step.by or not step.check or step.by == step.check:
-            continue  # a step checked by its own role is the procedure checker's finding
-        for pid, name in sorted(people.get(step.by, set()) & people.get(step.check, set())):
-            key = (pid, step.by, step.check)
+    for by, check, number, title in pairs:
+        for pid, name in sorted(people.get(by, set()) & people.get(check, set())):
+            key = (pid, by, check)
             if key in seen:
                 continue
             seen.add(key)
-            out.append(Reason(f"{name} is assigned to both {step.by} and {step.check}: "
-                              f"step {step.number} \"{step.title}\" would be checked by the person who does it",
+            out.append(Reason(f"{name} is assigned to both {by} and {check}: "
+                              f"step {number} \"{title}\" would be checked by the person who does it",
                               limit="duty_separation",
-                              fix=f"assign a different person to {step.check}"))
+                              fix=f"assign a different person to {check}"))
     return out
+
+
+_PAIRS: dict[int, tuple[Any, tuple]] = {}
+
+
+def _act_check_pairs(procedure) -> tuple[tuple[str, str, int, str], ...]:
+    """(by, check, number, title) of every step acted and checked by two different roles, once per procedure."""
+    found = _PAIRS.get(id(procedure))
+    if found is None or found[0] is not procedure:
+        steps = tuple(getattr(procedure, "main_steps", ())) + tuple(getattr(procedure, "stop_steps", ()))
+        # a step checked by its own role is the procedure checker's finding, not a casting one
+        pairs = tuple((st.by, st.check, st.number, st.title) for st in steps
+                      if st.by and st.check and st.by != st.check)
+        if len(_PAIRS) > 64:
+            _PAIRS.clear()
+        found = _PAIRS[id(procedure)] = (procedure, pairs)
+    return found[1]
 
 
 # --------------------------------------------------------------------------- a cue, a night
@@ -451,6 +483,7 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     procedure = cue.procedure
     reasons: list[Reason] = []
     result = None
+    rider_reasons: list[Reason] = []
     if cue.rig_model is None:
         reasons.append(Reason(f"rig {cue.rig!r} has no readable rig file on record", limit="rig"))
     else:
@@ -471,7 +504,7 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     reasons += acts_and_checks(procedure, cue.crew, cue.riders)
     reasons += list(cue.readiness)
 
-    fixes = _fixes(cue, perf, reasons, ctx) if verdict_of(reasons) == "blocked" else ()
+    fixes = _fixes(cue, perf, reasons, rider_reasons, ctx) if verdict_of(reasons) == "blocked" else ()
     return replace(
         base,
         rig=cue.rig,
@@ -491,9 +524,6 @@ def cue_night(cue: CueInput, perf: PerformanceInput, ctx: _Context) -> CueNight:
     )
 
 
-_RIDER_LIMITS = ("rider_clearance", "rehearsal")
-
-
 def _short(reason: Reason) -> str:
     """A few words for a reason, for a fix line that must not read like tonight's block."""
     words = reason.limit.split(":")[0].replace("_", " ")
@@ -502,7 +532,8 @@ def _short(reason: Reason) -> str:
     return words
 
 
-def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _Context) -> list[str]:
+def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], rider_reasons: list[Reason],
+           ctx: _Context) -> list[str]:
     """What would clear a blocked cue: the balance advisor, the other cast, a trained person."""
     fixes: list[str] = []
     blocked = [r for r in reasons if r.level == "blocked"]
@@ -511,14 +542,15 @@ def _fixes(cue: CueInput, perf: PerformanceInput, reasons: list[Reason], ctx: _C
         result = ctx.solver(cue.rig_model, [r.mass_kg for r in cue.riders])  # cached
         load_blocks = [r for r in result.reasons if r.level == "blocked"]
     if load_blocks:
-        advice = ctx.advisor(cue.rig_model, [r.mass_kg for r in cue.riders])
+        advice = ctx.solver.advice(ctx.advisor, cue.rig_model, [r.mass_kg for r in cue.riders])
         if advice:
             fixes.append(advice)
         payload = next((r for r in load_blocks if r.limit == "rated_payload"), None)
         if payload is not None and payload.value is not None and payload.allowed is not None:
             fixes.append(f"bring the riders' total (with allowance) down by {payload.value - payload.allowed:.0f} kg "
                          f"to the rated payload of {payload.allowed:.0f} kg")
-    rider_blocks = load_blocks + [r for r in blocked if r.limit in _RIDER_LIMITS]
+    # Only what tonight's riders cause (load, clearance, their rehearsal) can another cast clear.
+    rider_blocks = [r for r in rider_reasons if r.level == "blocked"]
     if rider_blocks and cue.rig_model is not None:
         tonight = sorted(r.person_id for r in cue.riders)
         for cast_name, cast in sorted(cue.casts.items()):

@@ -20,7 +20,7 @@ from typing import Any, BinaryIO, Iterable
 import sqlite_utils
 
 from showops.audit import records as rec
-from showops.audit.deviations import Deviation, ProcedureFacts, scan
+from showops.audit.deviations import CUE_EVENTS, Deviation, ProcedureFacts, scan
 from showops.audit.report import Note, ShowReport, running_order, signoff_name
 from showops.audit.risk import assess
 from showops.audit.season import (ActionRef, CueRef, PerformanceRef, RecordRef, SeasonAudit, build_season,
@@ -193,7 +193,7 @@ def promote(db: sqlite_utils.Database, actor: Actor, deviation: Deviation, *, no
             narrative: str | None = None) -> int:
     """Make a deviation a near miss in one action; return the record's id.
 
-    The record points at the deviation's first row, carries its text as the narrative
+    The record points at the deviation's last row, carries its text as the narrative
     and its key, so the same deviation is never promoted twice.
 
     :raises Refused: when it was promoted already.
@@ -201,7 +201,9 @@ def promote(db: sqlite_utils.Database, actor: Actor, deviation: Deviation, *, no
     data = {"kind": "near_miss", "occurred_at": deviation.at_utc,
             "narrative": narrative or f"{deviation.title}: {deviation.text} (found in the log, rows "
                                       f"{', '.join(map(str, deviation.row_ids))})"}
-    record_id, _ = report(db, actor, data, step_log_id=deviation.row_ids[0] if deviation.row_ids else None,
+    # the last row is the one that shows the deviation (the late confirmation, the
+    # self-check, the brake going back on); the first is where it began
+    record_id, _ = report(db, actor, data, step_log_id=deviation.row_ids[-1] if deviation.row_ids else None,
                           performance_id=deviation.performance_id, deviation_key=deviation.key, now=now)
     return record_id
 
@@ -580,12 +582,37 @@ def show_report(db: sqlite_utils.Database, performance_ref: Any, *, now: datetim
     notes = [Note(*r) for r in db.execute("SELECT written_at, written_by, text FROM audit_note "
                                           "WHERE performance_id = ? ORDER BY id", [pid])]
     sign = info["signoff"]
-    last_cue_row = max((r["id"] for r in rows if r["cue_id"] is not None), default=0)
+    last_cue_row = max((r["id"] for r in rows if r["cue_id"] is not None and r["event"] in CUE_EVENTS), default=0)
     signed = sign is not None and sign["id"] > last_cue_row
     return ShowReport(pid, production, company, venue + (f", {town}" if town else ""),
                       starts, sm,
                       runs, devs, recs, notes, signoff_name(sign) if signed else None,
                       sign["at_utc"] if signed else None, info["first_row"], info["last_row"], info["last_hash"])
+
+
+_MARGIN_CACHE: dict[tuple, tuple] = {}
+
+
+def _margins(db, ids: list[int]):
+    """Each rig cue's limit usage per night, from the night plans (cached while the
+    riders, their masses and the rig versions stay the same)."""
+    from showops.store.show import night_plans
+
+    stamp = db.execute(
+        "SELECT (SELECT coalesce(max(id), 0) FROM rig_version), (SELECT coalesce(max(id), 0) FROM procedure_version),"
+        " (SELECT count(*) || ':' || total(performance_id * 7919 + cue_id * 104729 + person_id)"
+        "  FROM performance_rider), (SELECT total(mass_kg) || ':' || count(*) FROM performer),"
+        " (SELECT count(*) || ':' || total(id) FROM performance)").fetchone()
+    key = (_db_file(db), tuple(ids))
+    hit = _MARGIN_CACHE.get(key)
+    if hit is not None and hit[0] == stamp:
+        return list(hit[1])
+    wanted = set(ids)
+    found = margins_from_plans(p for p in night_plans(db) if p.performance_id in wanted)
+    if len(_MARGIN_CACHE) >= _SCAN_CACHE_MAX:
+        _MARGIN_CACHE.pop(next(iter(_MARGIN_CACHE)))
+    _MARGIN_CACHE[key] = (stamp, tuple(found))
+    return found
 
 
 def season_audit(db: sqlite_utils.Database, date_from: date, date_to: date, *, today: date | None = None,
@@ -611,12 +638,7 @@ def season_audit(db: sqlite_utils.Database, date_from: date, date_to: date, *, t
         q = f"SELECT id, record_id, description, owner, due, state FROM audit_action WHERE record_id IN " \
             f"({', '.join('?' * len(rec_ids))}) ORDER BY id"
         actions = [ActionRef(i, r, d, o, date.fromisoformat(due), s) for i, r, d, o, due, s in db.execute(q, rec_ids)]
-    margins = []
-    if with_margins and ids:
-        from showops.store.show import night_plans
-
-        wanted = set(ids)
-        margins = margins_from_plans(p for p in night_plans(db) if p.performance_id in wanted)
+    margins = _margins(db, ids) if with_margins and ids else []
     return build_season(date_from, date_to, perfs, cues, devs, recs, actions, margins, today=today)
 
 
@@ -659,6 +681,13 @@ def seed_demo_audit(db: sqlite_utils.Database, demo_ids: Any, *, now: datetime |
     chosen = min(devs, key=lambda d: (rank.get(d.rule, 9), d.row_ids))
     sm = Actor(demo_data.STAGE_MANAGER, "stage_manager", person_id=getattr(demo_ids, "stage_manager", None))
     record_id = promote(db, sm, chosen, now=now)
+    row = _log_row(db, chosen.row_ids[-1])
+    amend(db, sm, record_id, {
+        "people": [{"name": row["person_name"] or "", "role": row["role"] or ""}] if row["person_name"] else [],
+        "doing": "running cue {} '{}', step {}".format(
+            *(db.execute("SELECT number, name FROM cue WHERE id = ?", [row["cue_id"]]).fetchone() or ("?", "?")),
+            row["step_key"] or "?"),
+        "immediate_action": "the caller held the next go until every lifter had called ready"}, now=now)
     classify(db, sm, record_id, kind="near_miss", likelihood=3, severity_actual="E", severity_potential="C",
              now=now)
     investigate(db, sm, record_id, {

@@ -68,7 +68,7 @@ def parse_day(value: Any, field: str) -> date:
 
 def _past_day(value: Any, field: str, today: date | None) -> date:
     day = parse_day(value, field)
-    today = today or _now().date()
+    today = today or date.today()
     if day > today:
         raise ValidationError(field, f"{day.isoformat()} is in the future (today is {today.isoformat()}); "
                                      "record what has happened")
@@ -514,7 +514,7 @@ def rig_events(db: sqlite_utils.Database, rig: str | None = None) -> list[RigEve
 
 def due(db: sqlite_utils.Database, today: date | None = None, days: int = 14) -> list[Due]:
     """Return what falls due (or is overdue) on every rig within ``days`` of ``today``."""
-    today = today or _now().date()
+    today = today or date.today()
     if isinstance(days, bool) or not isinstance(days, int) or days < 0:
         raise ValidationError("days", f"expected a whole number of days, 0 or more, got {days!r}")
     out: list[Due] = []
@@ -840,8 +840,8 @@ def readiness_reasons(db: sqlite_utils.Database, performance_id: int, cue: Any, 
     :param cue: a :class:`showops.show.model.CueNight` (``cue_id``, ``rig`` and, when
         given, ``load`` are read; the riders and crew come from the casting tables), or
         a cue id.
-    :param as_of: the day it is now (default: today, UTC); records made on the night
-        block from the performance's day on.
+    :param as_of: the day it is now (default: the machine's local date, the venue's);
+        records made on the night block from the performance's day on.
     :returns: reasons with ``limit`` one of ``inspection``, ``preshow``, ``briefing``,
         ``rehearsal``, ``area_release``, ``objection``, ``equipment``; none for a cue
         that uses no rig.
@@ -858,11 +858,18 @@ def readiness_reasons(db: sqlite_utils.Database, performance_id: int, cue: Any, 
         return []
     if performance_id not in snap.perf_days:
         raise NotFound(f"performance: performance {performance_id} does not exist")
+    as_of = as_of or date.today()
     team = snap.teams.get((performance_id, cue_id), ())
+    key = ("cue", performance_id, cue_id, rig, as_of)
+    if team and key in snap.memo:  # the same cue asked again (the sheet's cover, then its page)
+        return list(snap.memo[key])
     if not team and not isinstance(cue, int):
         team = participants_of(cue)
-    return cue_readiness(snap.context(performance_id, rig, cue_id, team, as_of or _now().date(),
-                                      getattr(cue, "load", None)), snap.memo)
+    reasons = cue_readiness(snap.context(performance_id, rig, cue_id, team, as_of, getattr(cue, "load", None)),
+                            snap.memo)
+    if snap.teams.get((performance_id, cue_id)):
+        snap.memo[key] = tuple(reasons)
+    return reasons
 
 
 class _Snapshot:
@@ -877,6 +884,10 @@ class _Snapshot:
         self.db = db
         self.perf_days = {i: datetime.fromisoformat(s).date() for i, s in q("SELECT id, starts_at FROM performance")}
         self.cue_rigs = dict(q("SELECT id, rig_slug FROM cue"))
+        self.rig_cues_of: dict[int, list[int]] = {}
+        for perf, cue_id in q("SELECT p.id, c.id FROM performance p JOIN cue c ON c.production_id = p.production_id "
+                              "WHERE c.rig_slug IS NOT NULL ORDER BY p.id, c.position, c.id"):
+            self.rig_cues_of.setdefault(perf, []).append(cue_id)
         teams: dict[tuple[int, int], list[Participant]] = {}
         for perf, cue_id, role, pid, name in q(
                 "SELECT c.performance_id, c.cue_id, c.role, p.id, p.name FROM performance_crew c "
@@ -1015,7 +1026,7 @@ def rig_status(db: sqlite_utils.Database, performance_id: int, rig: str, *, as_o
     (every reason of every cue on the rig, once each), ``line`` (one line).
     """
     perf, day = performance_day(db, performance_id)
-    as_of = as_of or _now().date()
+    as_of = as_of or date.today()
     rules = rule_set_for(db, rig)
     insp = [i for i in inspections(db, rig) if i.passed and i.on <= day]
     last = insp[-1].on if insp else None
@@ -1238,9 +1249,7 @@ def performance_readiness(db: sqlite_utils.Database, performance_id: int, *,
     if performance_id not in snap.perf_days:
         raise NotFound(f"performance: performance {performance_id} does not exist")
     out: list[Reason] = []
-    for (cue_id,) in db.execute("SELECT c.id FROM cue c JOIN performance p ON p.production_id = c.production_id "
-                                "WHERE p.id = ? AND c.rig_slug IS NOT NULL ORDER BY c.position, c.id",
-                                [performance_id]).fetchall():
+    for cue_id in snap.rig_cues_of.get(performance_id, ()):
         for reason in readiness_reasons(db, performance_id, cue_id, as_of=as_of):
             if reason not in out:
                 out.append(reason)

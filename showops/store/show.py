@@ -394,7 +394,7 @@ class _Season:
         for slug, text in q("SELECT rig_slug, text FROM rig_version WHERE id IN "
                             "(SELECT MAX(id) FROM rig_version GROUP BY rig_slug)"):
             try:
-                self.rigs[slug] = _parse_rig_cached(text, f"{slug} (stored)")
+                self.rigs[slug] = parse_stored_rig(text, slug)
             except (RigFileError, ShowopsError) as exc:  # e.g. a kind this build does not know
                 self.rig_errors[slug] = str(exc)
         self.procedures: dict[str, Any] = {}
@@ -509,6 +509,17 @@ def _parse_rig_cached(text: str, source: str):
     from showops.rig import parse_rig
 
     return parse_rig(text, source=source)
+
+
+def parse_stored_rig(text: str, slug: str):
+    """Return the rig model of a stored rig version's text, parsed once per process.
+
+    Parsing reads every quantity through the unit library (tens of ms); a season's
+    verdicts ask for the same few texts thousands of times.
+
+    :raises RigFileError: when the stored text is not a valid rig file (for this build).
+    """
+    return _parse_rig_cached(text, f"{slug} (stored)")
 
 
 @functools.lru_cache(maxsize=32)

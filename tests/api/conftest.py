@@ -57,25 +57,34 @@ PEOPLE = {"halden": ("stage_manager", "SM"), "margit": ("crew", "BRAKE"), "fenn"
           "insp": ("viewer", "VIEWER")}
 
 
+class Devices(dict):
+    """{username: Device}, each person signed in on first use (sign-ins cost time)."""
+
+    def __init__(self, app):
+        super().__init__()
+        self.app = app
+
+    def __missing__(self, username):
+        client = self.app.test_client()
+        token = read_forms(client.get("/sign-in").get_data(as_text=True)).meta_token
+        response = client.post("/sign-in", data={"username": username, "password": PASSWORD, "csrf_token": token},
+                               environ_base={"REMOTE_ADDR": f"10.0.0.{len(self) + 1}"})
+        assert response.status_code in (302, 303), response.get_data(as_text=True)
+        token = read_forms(client.get("/").get_data(as_text=True)).meta_token
+        assert token
+        device = self[username] = Device(client, token)
+        return device
+
+
 @pytest.fixture
 def devices(app, db, lift):
-    """Every invented person signed in on their own device: {username: Device}."""
+    """Every invented person with a sign-in, on their own device: ``devices[username]``."""
     for username, (role, attr) in PEOPLE.items():
         actor = getattr(lift, attr)
         db["person"].insert({"id": actor.person_id, "name": actor.name})
         store_users.add_user(db, username, actor.name, role, password=PASSWORD, person_id=actor.person_id)
     store_users.add_user(db, "tess", "Tess Okonjo", "admin", password=PASSWORD)
-    out = {}
-    for i, username in enumerate(list(PEOPLE) + ["tess"]):
-        client = app.test_client()
-        token = read_forms(client.get("/sign-in").get_data(as_text=True)).meta_token
-        response = client.post("/sign-in", data={"username": username, "password": PASSWORD, "csrf_token": token},
-                               environ_base={"REMOTE_ADDR": f"10.0.0.{i + 1}"})
-        assert response.status_code in (302, 303), response.get_data(as_text=True)
-        token = read_forms(client.get("/").get_data(as_text=True)).meta_token
-        assert token
-        out[username] = Device(client, token)
-    return out
+    return Devices(app)
 
 
 @pytest.fixture

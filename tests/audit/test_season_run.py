@@ -51,6 +51,34 @@ def read_csv(path):
     return list(csv.DictReader(path.read_text(encoding="utf-8").splitlines()))
 
 
+def brake_off_too_long(db) -> int:
+    """Brake-off intervals longer than the procedure's hold times allow, counted from the
+    runner's own ``sets`` detail on each confirmation and the procedure parser's steps."""
+    from showops.procedure import parse_procedure
+
+    allowance = {}
+    for sha, text in db.execute("SELECT sha256, text FROM procedure_version"):
+        steps = parse_procedure(text, source="stored").main_steps
+        start = next((i for i, st in enumerate(steps) if "brake off" in st.sets), None)
+        if start is None:
+            continue
+        end = next(i for i in range(start, len(steps)) if "brake on" in steps[i].sets)
+        allowance[sha] = sum(st.hold_s or 0 for st in steps[start:end + 1])
+    count, off = 0, {}
+    for pid, cid, event, at, detail, version in db.execute(
+            "SELECT performance_id, cue_id, event, at_utc, detail, procedure_version FROM step_log "
+            "WHERE event IN ('step_confirmed', 'cue_completed') ORDER BY id"):
+        sets = json.loads(detail).get("sets", []) if detail else []
+        key = (pid, cid)
+        if event == "step_confirmed" and "brake off" in sets:
+            off[key] = at
+        elif key in off and (event == "cue_completed" or "brake on" in sets):
+            seconds = (datetime.fromisoformat(at) - datetime.fromisoformat(off.pop(key))).total_seconds()
+            if event == "cue_completed" or seconds > allowance.get(version, float("inf")):
+                count += 1
+    return count
+
+
 def expected_counts(db) -> Counter:
     """Each rule's count, straight from the log (no audit code)."""
     q = lambda sql: db.execute(sql).fetchall()  # noqa: E731
@@ -69,6 +97,7 @@ def expected_counts(db) -> Counter:
         1 for at, dev in q("SELECT at_utc, device_at FROM step_log WHERE device_at IS NOT NULL "
                            "AND performance_id IS NOT NULL")
         if abs((datetime.fromisoformat(at) - datetime.fromisoformat(dev)).total_seconds()) > 60)
+    c["brake_off_too_long"] = brake_off_too_long(db)
     ran = {p for (p,) in q("SELECT DISTINCT performance_id FROM step_log WHERE event = 'cue_started'")}
     signed = {p for (p,) in q("SELECT DISTINCT s.performance_id FROM step_log s WHERE s.event = 'signoff' AND s.id > "
                               "(SELECT max(id) FROM step_log c WHERE c.performance_id = s.performance_id AND "

@@ -62,7 +62,7 @@ def test_show_report_pdf():
     text = text_of(out.getvalue())
     assert "Show report: The Glass Orchard" in text
     assert "Q4 Orchard rises orchard-lift 20:01:00 20:04:30 3:30 1 0 0" in text
-    assert "not run" in text and "NOT SIGNED OFF" in text
+    assert "Q5 Blackout 0 0 0 no rig" in text and "NOT SIGNED OFF" in text
     assert "HOLD by Tomas Ilve" in text and "Lift cue ran late by a minute." in text
     assert "Ada Brennock brake 20:01:10 Tomas Ilve 20:01:20" in text
     assert CAUTION[:60] in text

@@ -166,7 +166,7 @@ def test_a_deviation_is_promoted_once(inst, crew):
     hold = next(d for d in devs if d.rule == "hold")
     record_id = store.promote(inst.db, crew, store.find_deviation(inst.db, hold.key, now=NOW), now=NOW)
     rec = store.get_record(inst.db, record_id)
-    assert rec["kind"] == "near_miss" and rec["step_log_id"] == hold.row_ids[0] and rec["deviation_key"] == hold.key
+    assert rec["kind"] == "near_miss" and rec["step_log_id"] == hold.row_ids[-1] and rec["deviation_key"] == hold.key
     assert "rider signalled" in rec["narrative"]
     with pytest.raises(Refused, match="already"):
         store.promote(inst.db, crew, hold, now=NOW)

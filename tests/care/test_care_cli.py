@@ -93,3 +93,23 @@ def test_parts_and_rules(scene):
     assert "DGUV Vorschrift 17 §34" in run(scene, "care", "rules", "--rig", "orchard-lift").output
     result = run(scene, "care", "edit-rule", "de-dguv", "annual", "--months", "18", "--by", "Ada Fenn")
     assert result.exit_code == 2 and "Error: source" in result.output
+
+
+def test_every_care_command_and_option_is_in_docs_care_md():
+    # Keep docs/care.md true: each command of `showops care` and `showops due`, and each
+    # of their options, is written there.
+    from pathlib import Path
+
+    import click
+
+    text = (Path(__file__).resolve().parents[2] / "docs" / "care.md").read_text(encoding="utf-8")
+    group = main.commands["care"]
+    commands = {f"showops care {name}": cmd for name, cmd in group.commands.items()}
+    commands["showops due"] = main.commands["due"]
+    for usage, cmd in commands.items():
+        assert usage + " " in text or usage + "\n" in text, usage
+        line = next(ln for ln in text.splitlines() if ln.startswith(usage + " ") or ln == usage)
+        for param in cmd.params:
+            if isinstance(param, click.Option) and param.name != "instance":
+                assert any(opt in line for opt in param.opts), (usage, param.opts)
+        assert "Example:" in (cmd.help or ""), usage

@@ -135,3 +135,15 @@ def test_viewer_reads_but_cannot_raise(site):
                                               "reason": "y", "responsible": "1"})
     assert r.status_code == 403
     assert client.get(f"/care/performance/{scene.tonight}/orchard-lift/preshow").status_code == 403
+
+
+def test_readiness_index_links_each_performance(site):
+    scene, client = site
+    sign_in(client, "vera")
+    page = client.get("/care/")
+    assert page.status_code == 200
+    html = page.get_data(as_text=True)
+    rows = texts_by(html, "id", "readiness-list")
+    # no examination on record: both performances are blocked for the orchard lift
+    assert rows and rows[0].count("blocking") == 2 and "no passing" in rows[0]
+    assert f'href="/care/performance/{scene.tonight}"' in html

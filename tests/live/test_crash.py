@@ -131,7 +131,7 @@ class Crew:
 
 
 @pytest.mark.slow
-@pytest.mark.timeout(120)
+@pytest.mark.timeout(180)
 @pytest.mark.parametrize("seed", [11, 29])
 def test_every_acknowledged_action_survives_sigkill_exactly_once(tmp_path, seed):
     from showops.cli import main

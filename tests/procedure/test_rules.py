@@ -66,6 +66,7 @@ CASES = [
     ("step-without-by", _replace("### Raise\n- by: lifters\n", "### Raise\n"),
      "file_is_well_formed", "### Raise", 1),
     ("duplicate-title", _replace("### Lower\n", "### Raise\n"), "file_is_well_formed", "### Raise", 2),
+    ("duplicate-phase", _replace("## Off\n", "## Ride\n"), "file_is_well_formed", "## Ride", 2),
     ("field-without-value", _replace("- hold: 20\n", "- hold:\n"), "file_is_well_formed", "- hold:", 1),
     ("load-ok-set-by-a-step", _replace("- sets: platform up", "- sets: platform up, load ok"),
      "file_is_well_formed", "- sets: platform up, load ok", 1),

@@ -95,3 +95,10 @@ def test_bough_frame_matches_pynite(riders):
     np.testing.assert_allclose(np.stack([-ef[:, 0], ef[:, 3]], 1), axial, rtol=1e-6, atol=1e-6 * scale)
     np.testing.assert_allclose(np.stack([-ef[:, 2], ef[:, 5]], 1), moment, rtol=1e-6,
                                atol=1e-6 * np.abs(moment).max())
+
+
+def test_cli_rig_kinds_lists_both_kinds():
+    result = CliRunner().invoke(main, ["rig", "kinds"])
+    assert result.exit_code == 0, result.output
+    names = [line.split()[0] for line in result.output.splitlines()]
+    assert names == ["frame", "parallel-linkage"]

@@ -323,3 +323,33 @@ def test_the_shipped_procedure_prints_whole(tmp_path):
 def test_markdown_inline(source, expected):
     from showops.sheets.crew import markdown_inline
     assert markdown_inline(source) == expected
+
+
+def test_continued_pages_name_their_cue_and_say_do_not_run(heavy):
+    """A loose page of a blocked cue still says which cue it is and DO NOT RUN."""
+    plan, pages = heavy
+    cue5 = [p for p in pages if "Cue 5 - rig " in p]
+    assert len(cue5) >= 2
+    assert "(continued)" not in cue5[0]
+    for page in cue5[1:]:
+        assert "CUE 5 Orchard rise 2 (continued) - DO NOT RUN" in page
+    cue3 = [p for p in pages if "Cue 3 - rig " in p]
+    for page in cue3[1:]:
+        assert "CUE 3 Orchard rise 1 (continued)" in page
+        assert "DO NOT RUN" not in page
+
+
+def test_cue_with_no_rig_file_and_no_procedure_still_prints_and_says_so():
+    from dataclasses import replace
+
+    plan = make_plan(10, n_rig_cues=1)
+    cue = replace(plan.rig_cues[0], load=None, procedure=None, procedure_title=None, procedure_version=None,
+                  rider_total_kg=None, rule_set_version=None, signal=None, verdict="blocked",
+                  reasons=(Reason("rig 'orchard-lift' has no readable rig file on record", limit="rig"),))
+    plan = replace(plan, cues=tuple(cue if c.cue_id == cue.cue_id else c for c in plan.cues))
+    text = cue_pages(pages_of(render_crew_sheet(plan, printed_at=PRINTED_AT)), cue.number)
+    assert "DO NOT RUN" in text
+    assert "No load figures computed for this cue" in text
+    assert "No procedure on record for this cue" in text
+    assert "NONE AGREED" in text
+    assert "procedure version none" in text

@@ -297,3 +297,46 @@ def test_the_plan_never_holds_one_persons_mass():
     night = plan_for(cue(riders=(odd,)))
     assert "49.37" not in repr(night)
     assert night.rider_total_kg == pytest.approx(53.37)  # the riders' total with allowance is the figure shown
+
+
+def test_another_cast_is_not_offered_for_a_crew_block():
+    expired = crew(5, "Ama Kettering", "spotter",
+                   training=Training("orchard-lift", date(2025, 1, 5), "Lise Armitage", date(2026, 10, 28)))
+    night = plan_for(cue(crew=FULL_CREW[:-1] + (("spotter", expired),)))
+    assert night.verdict == "blocked"
+    assert not any(f.startswith("the other cast") for f in night.fixes), night.fixes
+
+
+# ---------------------------------------------------------------- with the real procedure checker
+
+SHIPPED = Path(__file__).parents[2] / "procedures" / "orchard-lift.md"
+
+
+def real_procedure(text=None):
+    from showops.procedure import parse_procedure
+
+    return parse_procedure(text if text is not None else SHIPPED.read_text(encoding="utf-8"),
+                           source="procedures/orchard-lift.md")
+
+
+def test_a_blocked_load_is_reported_once_not_again_as_procedure_findings():
+    from showops.show.verdicts import check_cue_procedure
+
+    night = plan_for(cue(riders=(HEAVY, LIGHT), procedure=real_procedure()), checker=check_cue_procedure)
+    assert night.verdict == "blocked"
+    assert [r.limit for r in night.reasons if r.level == "blocked"] == ["rated_payload", "operator_force_per_person"]
+    assert night.findings == ()
+    assert "correct the procedure file so the checker passes" not in night.fixes
+
+
+def test_a_faulty_procedure_is_still_found_when_the_load_is_blocked():
+    from showops.show.verdicts import check_cue_procedure
+
+    text = SHIPPED.read_text(encoding="utf-8")
+    faulty = text.replace("- needs: rider aboard, strap fastened, platform down, area clear, load ok\n",
+                          "- needs: rider aboard, strap fastened, platform down, area clear\n", 1)
+    assert faulty != text  # the release step of the shipped procedure lost its "load ok"
+    for riders in ((HEAVY, LIGHT), (PARTNER, LIGHT)):
+        night = plan_for(cue(riders=riders, procedure=real_procedure(faulty)), checker=check_cue_procedure)
+        assert any('without needing "load ok"' in f for f in night.findings), night.findings
+        assert "procedure" in [r.limit for r in night.reasons if r.level == "blocked"]

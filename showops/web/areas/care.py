@@ -49,6 +49,24 @@ def _rigs_of(performance_id: int) -> list[str]:
         "WHERE p.id = ? AND c.rig_slug IS NOT NULL ORDER BY c.rig_slug", [performance_id])]
 
 
+# --------------------------------------------------------------------------- index
+
+@bp.route("/")
+@nav_item("Readiness", 55)
+@roles_required(*EVERYONE)
+def index():
+    """Every performance with its rigs' readiness at a glance, linking to each one."""
+    db = get_db()
+    rows = []
+    for perf, starts in db.execute("SELECT id, starts_at FROM performance ORDER BY starts_at, id").fetchall():
+        reasons = store.performance_readiness(db, perf)
+        rows.append({"id": perf, "starts": starts.replace("T", " "),
+                     "blocked": sum(1 for r in reasons if r.level == "blocked"),
+                     "caution": sum(1 for r in reasons if r.level == "caution"),
+                     "first": next((r.text for r in reasons), "")})
+    return render_template("care/index.html", rows=rows)
+
+
 # --------------------------------------------------------------------------- due soon
 
 @bp.route("/due")
