@@ -148,3 +148,12 @@ def test_tonight_sends_crew_to_their_screen_and_others_to_the_running_order(clie
     auth.login("halden", DEMO_PASSWORD)
     response = client.get("/tonight")
     assert response.status_code == 302 and "/crew" not in response.location
+
+
+def test_a_technical_director_may_hold_but_not_run_the_night(client, auth, demo):
+    ids, _ = demo
+    auth.login("lise", DEMO_PASSWORD)
+    html = client.get(f"/performances/{ids.performances[1]}").get_data(as_text=True)
+    assert texts_by(html, "id", "hold-button") == ["HOLD"]
+    assert all(row["buttons"] == [] for row in cue_rows(html).values())
+    assert texts_by(html, "id", "signoff-button") == []

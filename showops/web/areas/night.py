@@ -107,8 +107,11 @@ def running_order(performance_id: int):
     and the live cue step by step."""
     plan = _plan(performance_id)
     user = current_user()
+    # The stage manager runs the night; a technical director may call HOLD from here
+    # but starts, resumes and signs off nothing (the runner would refuse it anyway).
     return render_template("night/running_order.html", plan=plan, poll_ms=POLL_MS,
-                           can_act=user.role in ("admin", "stage_manager"))
+                           can_act=user.role == "stage_manager",
+                           can_hold=user.role in ("admin", "stage_manager"))
 
 
 @bp.route("/performances/<int:performance_id>/crew")
