@@ -68,12 +68,6 @@ class TextOf(HTMLParser):
             self.texts[-1] += data
 
 
-def alerts(html: str) -> list[str]:
-    parser = TextOf("role", "alert")
-    parser.feed(html)
-    return [" ".join(t.split()) for t in parser.texts]
-
-
 def texts_by(html: str, attr: str, value: str) -> list[str]:
     """Text of every element whose ``attr`` is ``value``, whitespace collapsed."""
     parser = TextOf(attr, value)

@@ -13,7 +13,7 @@ what would clear it.
 
 from __future__ import annotations
 
-from datetime import datetime, timedelta
+from datetime import datetime
 
 from flask import Blueprint, abort, redirect, render_template, url_for
 
