@@ -57,12 +57,17 @@ def start_windfall(sm, ids, db):
     assert last_log_id(db) > before
 
 
-def run_until_complete(pages_by_name, sm, db, *, max_presses=80):
+def run_until_complete(pages_by_name, sm, db, *, max_presses=80, idle_s=5.0):
     """Whoever has an enabled action presses it, one at a time; after each press wait
-    until every screen shows the new log row. Return (presses, seconds to every screen)."""
+    until every screen shows the new log row. Return (presses, seconds to every screen).
+
+    When no screen offers an action, look again for up to ``idle_s`` (a screen may need
+    one more poll before its button is enabled) before calling the cue stuck.
+    """
     everyone = list(pages_by_name.values()) + [sm]
     presses, spread = [], []
-    for _ in range(max_presses):
+    idle_since = None
+    while len(presses) < max_presses:
         if sm.locator("#live-state").text_content() == "complete":
             return presses, spread
         for name, page in list(pages_by_name.items()) + [("halden", sm)]:
@@ -81,8 +86,13 @@ def run_until_complete(pages_by_name, sm, db, *, max_presses=80):
             shown = [p.evaluate("id => window.showopsLive.seenAt(id)", after) for p in everyone]
             spread.append((max(shown) - pressed) / 1000)
             presses.append((name, label))
+            idle_since = None
             break
         else:
+            idle_since = idle_since or time.monotonic()
+            if time.monotonic() - idle_since < idle_s:
+                time.sleep(0.25)
+                continue
             states = {n: p.locator("#card-title").inner_text() for n, p in pages_by_name.items()}
             cards = {n: p.locator("#card-cue").inner_text() for n, p in pages_by_name.items()}
             raise AssertionError(f"nobody can act and the cue is not complete: {states} {cards} after {presses}; "
@@ -175,6 +185,11 @@ def test_hold_stops_every_screen_and_only_the_stage_manager_resumes(night, db, s
         page.locator("#hold-banner").wait_for(state="visible", timeout=3000)
     seconds = time.perf_counter() - t0
     print(f"\nHOLD on every screen after {seconds:.2f} s")
+    # The banner shows as soon as the press is made; wait for the server's row too.
+    deadline = time.monotonic() + 5
+    while not db.execute("SELECT 1 FROM step_log WHERE event = 'hold' AND cue_id = ?",
+                         [ids.cues["8"]]).fetchone() and time.monotonic() < deadline:
+        time.sleep(0.05)
     crew["margit"].screenshot(path=str(screenshots / "crew-hold.png"))
     for page in crew.values():
         assert "held by Fenn Castell" in page.locator("#hold-banner").inner_text()
