@@ -26,7 +26,7 @@ from showops.rig.checks import (EQU, Check, StateResult, check, reason_for, stab
 from showops.rig.fields import TableReader
 from showops.rig.frame import (FrameModel, FrameModelError, Member, PointLoad, Support,
                                UniformLoad, NodeLoad, solve_frame)
-from showops.rig.kinds import RigKind, register
+from showops.rig.kinds import RigKind, register, result_to_dict
 from showops.rig.linkage import validate_riders
 from showops.rig.model import Advisor, Base
 from showops.units import STANDARD_GRAVITY, format_quantity
@@ -422,15 +422,7 @@ class FrameResult:
 
     def to_dict(self) -> dict[str, Any]:
         """Return the JSON-ready result."""
-        out: dict[str, Any] = {}
-        for name in self.__dataclass_fields__:
-            value = getattr(self, name)
-            if name in ("states", "checks", "supports", "members", "reasons"):
-                value = [item.to_dict() for item in value]
-            elif name == "notes":
-                value = list(value)
-            out[name] = value
-        return out
+        return result_to_dict(self)
 
     def render_text(self, imperial: bool = False) -> str:
         """Return the figures as text for ``showops rig solve``."""

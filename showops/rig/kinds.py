@@ -49,3 +49,20 @@ def register(kind: RigKind) -> RigKind:
     """Add ``kind`` to the registry and return it."""
     KINDS[kind.name] = kind
     return kind
+
+
+def result_to_dict(result: Any) -> dict[str, Any]:
+    """Return a solve result dataclass as a JSON-ready dict.
+
+    Tuples become lists; items with their own ``to_dict`` (states, checks, reasons,
+    supports, members) are converted with it. Every kind's ``to_dict`` uses this, so
+    the ``rig solve --json`` shape is built one way.
+    """
+    out: dict[str, Any] = {}
+    for name in result.__dataclass_fields__:
+        value = getattr(result, name)
+        if isinstance(value, tuple):
+            value = [item.to_dict() if hasattr(item, "to_dict") else item for item in value]
+        out[name] = value
+    return out
+

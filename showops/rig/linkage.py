@@ -26,7 +26,7 @@ from showops.errors import ValidationError
 from showops.rig.checks import (Check, PermanentSums, StateResult, check, permanent_sums,
                                 reason_for, state_from_parts, tipping_checks)
 from showops.rig.fields import TableReader
-from showops.rig.kinds import RigKind, register
+from showops.rig.kinds import RigKind, register, result_to_dict
 from showops.rig.model import (EQU, HANDLE_MOUNTS, MOUNTS, Advisor, Base, Geometry,
                                LinkageRig, Limits, Load, Riders)
 from showops.units import STANDARD_GRAVITY
@@ -196,17 +196,7 @@ class LinkageResult:
 
     def to_dict(self) -> dict[str, Any]:
         """Return the JSON-ready result (the documented keys plus a few extra)."""
-        out: dict[str, Any] = {}
-        for name in self.__dataclass_fields__:
-            value = getattr(self, name)
-            if name in ("states", "checks"):
-                value = [item.to_dict() for item in value]
-            elif name == "reasons":
-                value = [reason.to_dict() for reason in value]
-            elif name == "notes":
-                value = list(value)
-            out[name] = value
-        return out
+        return result_to_dict(self)
 
 
 def rider_weight_n(rig: LinkageRig, rider_masses_kg: Sequence[float], g: float) -> tuple[float, float]:
