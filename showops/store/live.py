@@ -200,6 +200,12 @@ class Live:
             plan = self.plans.get(wdb, performance_id, fresh=action.kind == "start")
             setup = setup_for(plan, _cue(plan, cue_id))
             state = _replayed(wdb, setup)
+            if action.kind == "hold" and state.status not in ("running", "held"):
+                # A screen one poll behind may still show the last cue, or the next one:
+                # HOLD stops whatever is moving tonight, not only the cue on that screen.
+                moving = [s for s in _night_states(wdb, plan) if s.status == "running"]
+                if moving:
+                    state = moving[0]
             decision = decide(state, action, now or self.clock())
             rows = append_in_transaction(wdb.conn, decision.events)
             for row in rows:

@@ -186,3 +186,16 @@ def test_the_real_demo_past_performance_runs_every_cue_it_can(tmp_path):
     runner_rows = [r for r in rows if r["cue_id"] is not None]
     assert runner_rows[0]["at_utc"] > plan.starts_at.astimezone(timezone.utc).isoformat()[:16]
     assert verify_log(db) is None
+
+
+def test_hold_from_a_screen_still_showing_another_cue_stops_the_running_one(db, lift):
+    # Safety, common practice (no source): HOLD stops what is moving, even when the
+    # pressing screen has not yet caught up with the cue the caller just started.
+    svc.start_cue(db, 1, 8, lift.SM, plans=lift.plans)
+    row = svc.hold(db, 1, 3, lift.SPOTTER, plans=lift.plans).row
+    assert row["event"] == "hold" and row["cue_id"] == 8
+    assert svc.cue_status(db, 1, 8, plans=lift.plans)["status"] == "held"
+    with pytest.raises(svc.RefusedAttempt, match="Only the stage manager resumes"):
+        svc.resume(db, 1, 8, lift.SPOTTER, plans=lift.plans)
+    svc.resume(db, 1, 8, lift.SM, plans=lift.plans)
+    assert svc.cue_status(db, 1, 8, plans=lift.plans)["status"] == "running"
