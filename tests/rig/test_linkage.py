@@ -19,40 +19,7 @@ import pytest
 from showops.rig import parse_rig, solve_rig
 from showops.rig.linkage import solve_linkage
 from showops.units import STANDARD_GRAVITY
-
-
-def linkage_toml(*, a=1.0, b=1.0, h=0.5, handle_x=-1.8, handle_on="rear-bar", rider_x=1.8,
-                 loads=(), allowance=0, dynamic=1.0, stroke=0.8, extra_limits=""):
-    load_text = "".join(
-        f'[[load]]\nname = "{name}"\nmass = {mass}\non = "{on}"\nx = {x}\n' for name, mass, on, x in loads)
-    return f"""
-kind = "parallel-linkage"
-name = "test lift"
-[geometry]
-front_arm = {a}
-rear_arm = {b}
-pivot_spacing = {h}
-handle_x = {handle_x}
-handle_on = "{handle_on}"
-stroke = {stroke}
-[base]
-front_x = 2.5
-rear_x = -2.5
-mass = 300
-{load_text}
-[riders]
-x = {rider_x}
-allowance = {allowance}
-[limits]
-rated_payload = 200
-operators = 2
-operator_force_per_person = 1000
-stand_moment = 1000
-beam_axial = 5000
-brake_holding = 3000
-dynamic_factor = {dynamic}
-{extra_limits}
-"""
+from rig_texts import linkage_toml
 
 
 def test_standard_gravity_is_the_cgpm_value():

@@ -23,6 +23,7 @@ import numpy as np
 import pytest
 
 from rig_references import solve_with_anastruct, solve_with_pynite
+from rig_texts import linkage_toml
 from showops.rig import parse_rig
 from showops.rig.frame import solve_frame_batch
 from showops.rig.linkage import forces, rider_weight_n, solve_linkage, stand_moment
@@ -36,32 +37,8 @@ CLOSED_FORM_KEYS = ("operator_force_n", "stand_moment_nm", "upper_beam_axial_fro
 
 def rig_text(*, a=1.2, b=1.2, h=0.4, handle_x=-2.0, handle_on="rear-bar", rider_x=2.0, loads=(),
              stroke=0.8):
-    load_text = "".join(f'[[load]]\nname = "{n}"\nmass = {m}\non = "{on}"\nx = {x}\n' for n, m, on, x in loads)
-    return f"""
-kind = "parallel-linkage"
-name = "frame test lift"
-[geometry]
-front_arm = {a}
-rear_arm = {b}
-pivot_spacing = {h}
-handle_x = {handle_x}
-handle_on = "{handle_on}"
-stroke = {stroke}
-[base]
-front_x = 2.5
-rear_x = -2.5
-mass = 300
-{load_text}
-[riders]
-x = {rider_x}
-[limits]
-rated_payload = 300
-operators = 2
-operator_force_per_person = 1000
-stand_moment = 1000
-beam_axial = 9000
-brake_holding = 3000
-"""
+    return linkage_toml(name="frame test lift", a=a, b=b, h=h, handle_x=handle_x, handle_on=handle_on,
+                        rider_x=rider_x, loads=loads, stroke=stroke, rated=300, beam_axial=9000)
 
 
 DOMAIN_EXAMPLE = rig_text(loads=[("platform tare", 20, "platform", 1.7), ("counterweight", 40, "rear-bar", -1.2)])

@@ -18,39 +18,14 @@ from click.testing import CliRunner
 from showops.cli import main
 from showops.rig import load_rig, parse_rig, solve_rig
 from showops.rig.sweep import SweepError, sweep_angle, sweep_handle
+from rig_texts import linkage_toml
 
 ROOT = Path(__file__).resolve().parents[2]
 ORCHARD = ROOT / "procedures" / "rigs" / "orchard-lift.toml"
 BOUGH = ROOT / "procedures" / "rigs" / "bough-lever.toml"
 
-TRADE = """
-kind = "parallel-linkage"
-name = "trade example lift"
-[geometry]
-front_arm = 1.0
-rear_arm = 1.0
-pivot_spacing = 0.5
-handle_x = -1.8
-stroke = 0.8
-[base]
-front_x = 2.5
-rear_x = -2.5
-mass = 400
-[[load]]
-name = "counterweight"
-mass = 50
-on = "rear-bar"
-x = -1.0
-[riders]
-x = 1.8
-[limits]
-rated_payload = 200
-operators = 2
-operator_force_per_person = 1000
-stand_moment = 1000
-beam_axial = 5000
-brake_holding = 3000
-"""
+# The trade worked example's lift (arms 1.0 m, pivots 0.5 m, 50 kg counterweight).
+TRADE = linkage_toml(name="trade example lift", base_mass=400, loads=[("counterweight", 50, "rear-bar", -1.0)])
 
 
 def test_handle_sweep_passes_through_the_trade_example_points():
