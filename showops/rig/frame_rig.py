@@ -14,10 +14,8 @@ with :mod:`showops.rig.frame`, then checks every limit the file gives.
 
 from __future__ import annotations
 
-import hashlib
 import math
 from dataclasses import dataclass, field
-from functools import cached_property
 from typing import Any, Literal, Sequence
 
 from showops.errors import RigFileError
@@ -28,7 +26,7 @@ from showops.rig.frame import (FrameModel, FrameModelError, Member, PointLoad, S
                                UniformLoad, NodeLoad, solve_frame)
 from showops.rig.kinds import RigKind, register, result_to_dict
 from showops.rig.linkage import validate_riders
-from showops.rig.model import Advisor, Base
+from showops.rig.model import Advisor, Base, RigFile
 from showops.units import STANDARD_GRAVITY, format_quantity
 from showops.verdict import Reason, Verdict, verdict_of
 
@@ -106,7 +104,7 @@ class FrameLimits:
 
 
 @dataclass(frozen=True)
-class FrameRig:
+class FrameRig(RigFile):
     """A machine of ``kind = "frame"`` read from a rig file (SI units)."""
 
     name: str
@@ -123,15 +121,6 @@ class FrameRig:
     text: str = ""
     source: str = "<rig>"
     kind: str = "frame"
-
-    @cached_property
-    def version(self) -> str:
-        """The SHA-256 of the rig file's text."""
-        return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
-
-    @property
-    def counterweight_kg(self) -> float:
-        return sum(load.mass_kg for load in self.loads if load.counterweight)
 
 
 # --------------------------------------------------------------------------- reading

@@ -88,8 +88,22 @@ class Advisor:
     handle_step_m: float | None = None
 
 
+class RigFile:
+    """What every kind's rig model shares: ``text`` (the file) and ``loads``."""
+
+    @cached_property
+    def version(self) -> str:
+        """The SHA-256 of the rig file's text (the rig version every record names)."""
+        return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
+
+    @property
+    def counterweight_kg(self) -> float:
+        """The total mass of the loads marked as counterweight."""
+        return sum(load.mass_kg for load in self.loads if load.counterweight)
+
+
 @dataclass(frozen=True)
-class LinkageRig:
+class LinkageRig(RigFile):
     """A parallel-linkage lift read from a rig file."""
 
     name: str
@@ -103,16 +117,6 @@ class LinkageRig:
     text: str = ""
     source: str = "<rig>"
     kind: str = "parallel-linkage"
-
-    @cached_property
-    def version(self) -> str:
-        """The SHA-256 of the rig file's text (the rig version every record names)."""
-        return hashlib.sha256(self.text.encode("utf-8")).hexdigest()
-
-    @property
-    def counterweight_kg(self) -> float:
-        """The total mass of the loads marked as counterweight."""
-        return sum(load.mass_kg for load in self.loads if load.counterweight)
 
     @cached_property
     def constants(self):
