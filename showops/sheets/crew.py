@@ -312,7 +312,9 @@ def _who(cue: CueNight, role: str | None) -> str:
     return f"{people(cue, role)} ({role})"
 
 
-def _step_text(step) -> str:
+def _step_lines(step, *, timing_and_reason: bool = True) -> list[str]:
+    """The lines of a step: what, when, the words; its time limit and reason on the cue
+    page (``timing_and_reason``), left out on the shorter role pages; the caution."""
     parts = [f"<b>{text(step.title)}</b>"]
     if step.needs:
         parts.append(f"<i>Only when:</i> {text(', '.join(step.needs))}")
@@ -320,13 +322,17 @@ def _step_text(step) -> str:
         parts.append(f"<b>Say:</b> \"{text(step.say)}\"")
     if step.reply:
         parts.append(f"<b>Answer:</b> \"{text(step.reply)}\"")
-    if step.hold_s:
+    if timing_and_reason and step.hold_s:
         parts.append(f"<i>Within</i> {step.hold_s:g} s")
-    if step.why:
+    if timing_and_reason and step.why:
         parts.append(f"<i>Why:</i> {text(step.why)}")
     if step.note:
         parts.append(f"<b>CAUTION:</b> {text(step.note)}")
-    return "<br/>".join(parts)
+    return parts
+
+
+def _step_text(step) -> str:
+    return "<br/>".join(_step_lines(step))
 
 
 def _who_text(cue: CueNight, step) -> str:
@@ -546,15 +552,7 @@ def _part(step, role: str) -> str:
 
 def _role_step_text(cue: CueNight, step, role: str) -> str:
     """A step as the person in ``role`` needs it: what, when, the words, the caution, who else."""
-    parts = [f"<b>{text(step.title)}</b>"]
-    if step.needs:
-        parts.append(f"<i>Only when:</i> {text(', '.join(step.needs))}")
-    if step.say:
-        parts.append(f"<b>Say:</b> \"{text(step.say)}\"")
-    if step.reply:
-        parts.append(f"<b>Answer:</b> \"{text(step.reply)}\"")
-    if step.note:
-        parts.append(f"<b>CAUTION:</b> {text(step.note)}")
+    parts = _step_lines(step, timing_and_reason=False)
     others = []
     for label, other in (("does", step.by), ("go from", step.go), ("checks", step.check)):
         if other and other != role:
