@@ -430,10 +430,7 @@ def _start(state: CueState, action: Action, now: datetime):
 
 
 def _standby(state: CueState, action: Action, now: datetime):
-    refusal = _gate(state, action)
-    if refusal:
-        return refusal
-    step = _step_for(state, action)
+    step = _gated_step(state, action)
     if isinstance(step, Refusal):
         return step
     role = _role_of(state, action.actor, step.step.by)
@@ -449,11 +446,13 @@ def _standby(state: CueState, action: Action, now: datetime):
     return [_row(state, action, now, "standby", step, None, role=role)]
 
 
+def _gated_step(state: CueState, action: Action):
+    """Return the step ``action`` names, or the refusal of the cue's gate or of the lookup."""
+    return _gate(state, action) or _step_for(state, action)
+
+
 def _go(state: CueState, action: Action, now: datetime):
-    refusal = _gate(state, action)
-    if refusal:
-        return refusal
-    step = _step_for(state, action)
+    step = _gated_step(state, action)
     if isinstance(step, Refusal):
         return step
     s = step.step
@@ -478,10 +477,7 @@ def _go(state: CueState, action: Action, now: datetime):
 
 
 def _confirm(state: CueState, action: Action, now: datetime):
-    refusal = _gate(state, action)
-    if refusal:
-        return refusal
-    step = _step_for(state, action)
+    step = _gated_step(state, action)
     if isinstance(step, Refusal):
         return step
     s = step.step
@@ -515,10 +511,7 @@ def _confirm(state: CueState, action: Action, now: datetime):
 
 
 def _check(state: CueState, action: Action, now: datetime):
-    refusal = _gate(state, action)
-    if refusal:
-        return refusal
-    step = _step_for(state, action)
+    step = _gated_step(state, action)
     if isinstance(step, Refusal):
         return step
     s = step.step
