@@ -23,7 +23,8 @@ from __future__ import annotations
 import json
 import threading
 import time
-from dataclasses import dataclass, field
+from collections import OrderedDict
+from dataclasses import dataclass
 from datetime import datetime, timedelta, timezone
 from typing import Any, Callable
 
@@ -34,7 +35,8 @@ from showops.live.runner import (Action, Actor, Crew, CueSetup, CueState, Refusa
                                  new_state, next_for, replay)
 from showops.procedure.model import REST_STATE
 from showops.show.model import CueNight, NightPlan
-from showops.store.log import LogWriter, append_in_transaction, find_by_client_id, iter_log
+from showops.live.chain import GENESIS
+from showops.store.log import LogWriter, append_in_transaction, find_by_client_id, iter_log, log_head
 
 PlanLoader = Callable[[sqlite_utils.Database, int], NightPlan]
 Clock = Callable[[], datetime]
@@ -117,8 +119,91 @@ class PlanCache:
                 return hit[2]
         plan = self.loader(db, performance_id)
         with self._lock:
+            hit = self._plans.get(key)
+            if hit is not None and hit[2] == plan:
+                plan = hit[2]  # unchanged: keep the object, so the cue states kept under it stay
             self._plans[key] = (now, version, plan)
         return plan
+
+
+class KeptStates:
+    """The cues' live states kept between attempts, so an attempt does not replay its
+    cue from the log every time.
+
+    The states are true only for the log as it was when they were last brought up to
+    date, so every use starts with :meth:`sync` inside the write transaction: when the
+    log head (last id and hash) is the one these states last saw, they are current;
+    when another connection appended rows since (the CLI, a care or audit record),
+    those rows are applied; when the head went back or moved to another chain (a
+    rolled-back batch, a restored file), everything is dropped and replayed from the
+    log on next use. A kept state also belongs to one night plan object: a reloaded
+    plan (casting or a verdict changed) replays the cue.
+
+    Use only while holding the log's write lock (the writer thread, or inside
+    ``BEGIN IMMEDIATE``): that is what makes the head read here the head the next
+    append builds on.
+    """
+
+    #: more new rows than this since the last look: drop everything instead of catching up
+    CATCH_UP_LIMIT = 2000
+
+    def __init__(self, size: int = 256):
+        self.size = size
+        self._states: OrderedDict[tuple[int, int], tuple[NightPlan, CueState]] = OrderedDict()
+        self._head: tuple[int, str] = (0, GENESIS)
+        #: cues replayed from the log (a count for the tests and the bench)
+        self.replays = 0
+
+    def sync(self, db: sqlite_utils.Database) -> None:
+        """Bring the kept states up to the log as it is now (see the class notes)."""
+        head = log_head(db)
+        if head == self._head:
+            return
+        last_id, last_hash = self._head
+        same_chain = (last_id < head[0] <= last_id + self.CATCH_UP_LIMIT
+                      and (last_id == 0 or db.conn.execute("SELECT hash FROM step_log WHERE id = ?",
+                                                           (last_id,)).fetchone() == (last_hash,)))
+        if same_chain:
+            if self._states:
+                for row in iter_log(db, after_id=last_id):
+                    hit = self._states.get((row["performance_id"], row["cue_id"]))
+                    if hit is not None:
+                        apply(hit[1], row)
+        else:
+            self._states.clear()
+        self._head = head
+
+    def get(self, db: sqlite_utils.Database, plan: NightPlan, cue_id: int) -> CueState:
+        """The cue's state under ``plan``, replayed from the log when not kept (call
+        :meth:`sync` first).
+
+        :raises NotFound: when the cue is not in the plan.
+        """
+        key = (plan.performance_id, cue_id)
+        hit = self._states.get(key)
+        if hit is not None and hit[0] is plan:
+            self._states.move_to_end(key)
+            return hit[1]
+        state = _replayed(db, setup_for(plan, _cue(plan, cue_id)))
+        self.replays += 1
+        self._states[key] = (plan, state)
+        if len(self._states) > self.size:
+            self._states.popitem(last=False)
+        return state
+
+    def holds(self, state: CueState) -> bool:
+        hit = self._states.get((state.setup.performance_id, state.setup.cue_id))
+        return hit is not None and hit[1] is state
+
+    def appended(self, db: sqlite_utils.Database, rows: list[dict[str, Any]]) -> None:
+        """Apply the rows just appended (in this transaction) to the kept states."""
+        after = self._head[0]
+        for row in rows:
+            if row["id"] > after:
+                hit = self._states.get((row["performance_id"], row["cue_id"]))
+                if hit is not None:
+                    apply(hit[1], row)
+        self._head = log_head(db)
 
 
 @dataclass(frozen=True)
@@ -127,8 +212,9 @@ class Outcome:
 
     rows: tuple[dict[str, Any], ...]
     refusal: Refusal | None = None
-    #: the cue's state right after these rows (None for a retried client id)
-    state: CueState | None = field(default=None, compare=False)
+    #: the cue as a screen shows it right after these rows, for the acting person
+    #: (:meth:`Live.cue_status`'s shape), when asked for and not a retried client id
+    view: dict[str, Any] | None = None
 
     @property
     def row(self) -> dict[str, Any]:
@@ -146,6 +232,12 @@ def _replayed(db: sqlite_utils.Database, setup: CueSetup) -> CueState:
     return replay(setup, iter_log(db, performance_id=setup.performance_id, cue_id=setup.cue_id))
 
 
+def _view(state: CueState, now: datetime, person_id: int | None) -> dict[str, Any]:
+    view = describe(state, now)
+    view["next"] = next_for(state, person_id) if person_id is not None else None
+    return view
+
+
 class Live:
     """The live service for one instance: a plan source, a clock and (optionally) a writer.
 
@@ -159,6 +251,7 @@ class Live:
         self.writer = writer
         self.plans = PlanCache(plans, cache_ttl_s)
         self.clock = clock
+        self.kept = KeptStates()
 
     # -- writing -------------------------------------------------------------------
 
@@ -185,9 +278,14 @@ class Live:
         return result
 
     def act(self, db: sqlite_utils.Database, performance_id: int, cue_id: int, action: Action, *,
-            now: datetime | None = None) -> Outcome:
+            now: datetime | None = None, view: bool = False) -> Outcome:
         """Decide and record one attempt on a cue.
 
+        The cue's state comes from :attr:`kept` (replayed from the log only the first
+        time, or when the log or the plan changed underneath).
+
+        :param view: also return the cue as the actor's screen shows it after the
+            attempt (:attr:`Outcome.view`), built in the same transaction.
         :returns: the rows written (or, for a retried ``client_id``, found).
         :raises RefusedAttempt: when a rule refused it (its ``refused`` row is committed first).
         :raises NotFound: for an unknown performance or cue (nothing is written).
@@ -198,19 +296,23 @@ class Live:
                 if seen is not None:
                     return self._seen(wdb, seen)
             plan = self.plans.get(wdb, performance_id, fresh=action.kind == "start")
-            setup = setup_for(plan, _cue(plan, cue_id))
-            state = _replayed(wdb, setup)
+            self.kept.sync(wdb)
+            state = self.kept.get(wdb, plan, cue_id)
             if action.kind == "hold" and state.status not in ("running", "held"):
                 # A screen one poll behind may still show the last cue, or the next one:
                 # HOLD stops whatever is moving tonight, not only the cue on that screen.
                 moving = [s for s in _night_states(wdb, plan) if s.status == "running"]
                 if moving:
                     state = moving[0]
-            decision = decide(state, action, now or self.clock())
+            at = now or self.clock()
+            decision = decide(state, action, at)
             rows = append_in_transaction(wdb.conn, decision.events)
-            for row in rows:
-                apply(state, row)
-            return Outcome(tuple(rows), decision.refusal, state)
+            if not self.kept.holds(state):
+                for row in rows:
+                    apply(state, row)
+            self.kept.appended(wdb, rows)
+            shown = _view(state, at, action.actor.person_id) if view else None
+            return Outcome(tuple(rows), decision.refusal, shown)
 
         outcome = self._write(db, work)
         if outcome.refusal is not None:
@@ -282,23 +384,15 @@ class Live:
     # -- reading ---------------------------------------------------------------------
 
     def cue_status(self, db: sqlite_utils.Database, performance_id: int, cue_id: int, *,
-                   person_id: int | None = None, now: datetime | None = None,
-                   state: CueState | None = None) -> dict[str, Any]:
-        """The cue's live state (every step), and what ``person_id`` should do next.
+                   person_id: int | None = None, now: datetime | None = None) -> dict[str, Any]:
+        """The cue's live state (every step), and what ``person_id`` should do next,
+        replayed from the log as ``db`` sees it (a read: the kept states are the writer's).
 
-        :param state: a state already replayed (an action's :attr:`Outcome.state`).
         :raises NotFound: for an unknown performance or cue.
         """
-        if state is not None:
-            view = describe(state, now or self.clock())
-            view["next"] = next_for(state, person_id) if person_id is not None else None
-            return view
         plan = self.plans.get(db, performance_id, writer=self.writer)
         setup = setup_for(plan, _cue(plan, cue_id))
-        state = _replayed(db, setup)
-        view = describe(state, now or self.clock())
-        view["next"] = next_for(state, person_id) if person_id is not None else None
-        return view
+        return _view(_replayed(db, setup), now or self.clock(), person_id)
 
     def night_status(self, db: sqlite_utils.Database, performance_id: int, *, person_id: int | None = None,
                      now: datetime | None = None) -> dict[str, Any]:

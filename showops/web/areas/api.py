@@ -163,8 +163,10 @@ def _act(kind: str, performance_id: int, cue_id: int):
     action = Action(kind, _actor(), step, client_id=_text(data, "client_id", pattern=_ID),
                     device_at=_device_at(data), note=_text(data, "note"))
     service = live_service()
-    outcome = service.act(_db(), performance_id, cue_id, action)
-    cue = service.cue_status(_db(), performance_id, cue_id, person_id=action.actor.person_id, state=outcome.state)
+    outcome = service.act(_db(), performance_id, cue_id, action, view=True)
+    cue = outcome.view  # None for a retried client id: then read the cue as it is now
+    if cue is None:
+        cue = service.cue_status(_db(), performance_id, cue_id, person_id=action.actor.person_id)
     return jsonify({"row": outcome.row, "rows": list(outcome.rows), "cue": cue})
 
 
