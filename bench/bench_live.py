@@ -9,7 +9,13 @@ Prints, in one run:
      confirmation was lost or duplicated;
  (2) saturation: 8 devices confirming as fast as they can: confirmations per second;
  (3) the raw SQLite commit rate (one row per transaction, WAL, synchronous=FULL) on the
-     same disk, and the ratio (2)/(3) (goal: at least 0.5).
+     same disk, and the ratio (2)/(3) (goal: at least 0.5);
+ (4) the log writer in process, no HTTP: one FULL commit per row against group commit;
+ (5) the ceiling of the web stack itself on this machine: a Flask app on waitress
+     (same threads) that only reads a JSON body and answers one, driven by the same
+     8 client threads: requests per second, and its ratio to (3). When that ratio is
+     under 0.5, no Flask app served by waitress can meet the goal of (2) here, and the
+     figure to watch is (2)/(5), the share of the stack's ceiling showops keeps.
 
 Each device is a signed-in crew member on its own performance running a solo
 procedure (tests/live/live_server.py, ``bench_plans``), so every device can confirm
@@ -222,6 +228,60 @@ def group_commit_rates(folder: Path, seconds: float, threads: int = 8) -> tuple[
     return per_commit, grouped, per_batch
 
 
+def echo_app():
+    """The smallest Flask app that does what a confirmation's transport does: read a
+    JSON body, answer JSON (no sign-in, no log, no rules)."""
+    from flask import Flask, jsonify, request
+
+    app = Flask("showops_bench_echo")
+
+    @app.post("/echo")
+    def echo():
+        data = request.get_json()
+        return jsonify({"ok": True, "client_id": data.get("client_id")})
+
+    return app
+
+
+def stack_ceiling(threads: int, seconds: float, devices: int = 8) -> float:
+    """Requests per second of :func:`echo_app` on waitress, ``devices`` clients as fast as they can."""
+    import subprocess
+
+    port = free_port()
+    proc = subprocess.Popen([sys.executable, __file__, "--echo-server", str(port), "--threads", str(threads)],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    try:
+        probe = HttpDevice(port, timeout=1)
+        for _ in range(400):
+            try:
+                if probe.post("/echo", {"client_id": "probe"})[0] == 200:
+                    break
+            except (Offline, ValueError):
+                time.sleep(0.05)
+        probe.close()
+        counts = [0] * devices
+        stop = time.monotonic() + seconds
+
+        def run(i: int) -> None:
+            http = HttpDevice(port, timeout=30)
+            while time.monotonic() < stop:
+                status, _ = http.post("/echo", {"client_id": f"e{i}-{counts[i]}", "step": "Run/Step 1"})
+                if status == 200:
+                    counts[i] += 1
+            http.close()
+
+        t0 = time.monotonic()
+        ts = [threading.Thread(target=run, args=(i,)) for i in range(devices)]
+        for t in ts:
+            t.start()
+        for t in ts:
+            t.join()
+        return sum(counts) / (time.monotonic() - t0)
+    finally:
+        proc.kill()
+        proc.wait()
+
+
 def check_log(instance: Path, devices: list[BenchDevice]) -> tuple[int, int, bool]:
     """(acknowledged, missing or duplicated, chain ok) after the run."""
     from showops.store import open_db
@@ -250,7 +310,13 @@ def main() -> None:
     parser.add_argument("--saturation-seconds", type=float, default=10.0)
     parser.add_argument("--threads", type=int, default=8, help="waitress threads")
     parser.add_argument("--dir", default=None, help="folder for the instance (default: a temporary one)")
+    parser.add_argument("--echo-server", type=int, metavar="PORT", help=argparse.SUPPRESS)
     args = parser.parse_args()
+    if args.echo_server:
+        import waitress
+
+        waitress.serve(echo_app(), host="127.0.0.1", port=args.echo_server, threads=args.threads, _quiet=True)
+        return
 
     folder = Path(args.dir or tempfile.mkdtemp(prefix="showops-bench-"))
     instance = folder / "instance"
@@ -286,6 +352,7 @@ def main() -> None:
         server.stop()
     raw = raw_commit_rate(folder, 3.0)
     per_commit, grouped, per_batch = group_commit_rates(folder, 3.0)
+    ceiling = stack_ceiling(args.threads, 5.0)
     acked, bad, chain_ok = check_log(instance, show_devices + sat_devices)
     errors = [e for d in show_devices + sat_devices for e in d.errors]
 
@@ -304,6 +371,11 @@ def main() -> None:
     print(f"    ratio (2)/(3): {rate / raw:.2f}  (goal >= 0.5)")
     print(f"(4) in-process, 8 threads appending log rows: one FULL commit per row {per_commit:7.1f} rows/s; "
           f"through the LogWriter {grouped:7.1f} rows/s ({per_batch:.1f} rows per commit)")
+    print(f"(5) the web stack's ceiling here: a bare Flask app on waitress reading and answering JSON, "
+          f"8 devices: {ceiling:7.1f} requests/s; (5)/(3) = {ceiling / raw:.2f}"
+          + ("  (under 0.5: the goal of (2) is out of reach for any Flask app on waitress on this machine)"
+             if ceiling / raw < 0.5 else ""))
+    print(f"    showops keeps (2)/(5) = {rate / ceiling:.2f} of the stack's ceiling")
     print(f"log: {acked} acknowledged, {bad} lost or duplicated, chain {'verifies' if chain_ok else 'BROKEN'}, "
           f"{len(errors)} errors" + (f" (first: {errors[0]})" if errors else ""))
     print(f"server CPU: {1000 * (cpu1 - cpu0) / max(1, len(polls) + len(confirms)):.1f} ms per request under "
