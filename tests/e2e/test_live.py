@@ -255,3 +255,34 @@ def test_a_reload_mid_cue_and_a_lost_network_lose_nothing(night, db, screenshots
     sm.wait_for_selector('#live-steps li[data-status="confirmed"]')
     first = sm.locator("#live-steps li").first.inner_text()
     assert "confirmed by Margit Oduya" in first
+
+
+def test_an_answer_overtaken_by_a_newer_one_does_not_turn_the_screen_back(night, db):
+    """A poll sent just before a confirmation can come back after it (a slow network):
+    the screen must keep the newer state, not offer the confirmed step again."""
+    ids, perf, crew, sm = night
+    start_windfall(sm, ids, db)
+    margit = crew["margit"]
+    margit.locator("#confirm-button").wait_for(state="visible")
+    first_title = margit.locator("#card-title").inner_text()
+    cue_url = f"/api/performances/{perf}/cues/{ids.cues['8']}"
+    stale = margit.evaluate("url => fetch(url, {headers: {Accept: 'application/json'}}).then(r => r.text())", cue_url)
+    margit.click("#confirm-button")
+    margit.wait_for_function("() => window.showopsLive.queue().length === 0")
+    margit.wait_for_function("t => document.getElementById('card-title').textContent !== t", arg=first_title)
+    served = []
+
+    def old_answer(route):  # the poll that left before the press, arriving now
+        served.append(route.request.url)
+        route.fulfill(status=200, content_type="application/json", body=stale)
+
+    margit.route(f"**{cue_url}", old_answer)
+    margit.evaluate("window.showopsLive.poll(true)")
+    for _ in range(50):
+        if served:
+            break
+        margit.wait_for_timeout(100)
+    assert served, "the screen did not poll the cue"
+    margit.wait_for_timeout(300)  # let it render what it got
+    margit.unroute(f"**{cue_url}", old_answer)
+    assert margit.locator("#card-title").inner_text() != first_title

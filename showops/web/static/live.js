@@ -86,7 +86,7 @@
       saveQueue();
       sending = false;
       lastContact = Date.now();
-      if (data.cue && data.cue.cue_id === shownCue) { cue = data.cue; }
+      if (data.cue && data.cue.cue_id === shownCue) { cue = newest(data.cue, cue); }
       showMessage("Recorded at " + clock(data.row && data.row.at_utc) + ": " + item.label, "ok");
       render();
       flush();
@@ -112,6 +112,14 @@
 
   // ---------------------------------------------------------------- polling
 
+  // A poll sent just before a confirmation can come back after the confirmation's own
+  // answer: never let that older view of the same cue replace the newer one (each
+  // view names the last log row it includes).
+  function newest(incoming, current) {
+    if (!current || !incoming || incoming.cue_id !== current.cue_id) { return incoming; }
+    return (incoming.last_log_id || 0) >= (current.last_log_id || 0) ? incoming : current;
+  }
+
   var timer = null;
   function poll(now) {
     if (timer) { window.clearTimeout(timer); timer = null; }
@@ -123,14 +131,15 @@
       : api("GET", "/api/performances/" + pid + "/cues/" + guess);
     Promise.all([api("GET", "/api/performances/" + pid), cueAsk]).then(function (both) {
       var data = both[0];
+      if (night && data.last_log_id < night.last_log_id) { data = night; }  // an answer overtaken
       night = data;
       lastContact = Date.now();
       var target = chooseCue(data);
       if (target === null) { cue = null; shownCue = null; return null; }
       shownCue = target;
-      if (target === guess && both[1]) { cue = both[1]; return null; }
+      if (target === guess && both[1]) { cue = newest(both[1], cue); return null; }
       return api("GET", "/api/performances/" + pid + "/cues/" + target).then(function (c) {
-        if (shownCue === target) { cue = c; }
+        if (shownCue === target) { cue = newest(c, cue); }
       });
     }).then(function () {
       setLink(true);
