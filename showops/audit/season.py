@@ -7,7 +7,7 @@ one :class:`SeasonAudit`, so they show the same figures.
 
 from __future__ import annotations
 
-from collections import Counter, defaultdict
+from collections import Counter
 from dataclasses import dataclass, field
 from datetime import date
 from functools import cached_property
@@ -234,17 +234,32 @@ def margins_from_plans(plans: Iterable[Any]) -> list[Margin]:
         ``load`` is the rig solver's ``to_dict()`` with its ``checks`` (``limit``,
         ``label``, ``usage``).
     """
-    series: dict[tuple[str, str, str], dict] = defaultdict(lambda: {"label": "", "points": []})
-    for plan in plans:
-        for cue in plan.cues:
-            if not cue.rig or not cue.load:
-                continue
-            label = f"{cue.number} {cue.name}".strip()
-            for check in cue.load.get("checks", ()):
-                usage = check.get("usage")
-                if usage is None:
-                    continue
-                entry = series[(label, cue.rig, check["limit"])]
-                entry["label"] = check.get("label") or check["limit"]
-                entry["points"].append((plan.performance_id, float(usage)))
-    return [Margin(cue, rig, limit, v["label"], tuple(v["points"])) for (cue, rig, limit), v in series.items()]
+    return margins_from_loads((plan.performance_id, f"{cue.number} {cue.name}".strip(), cue.rig, cue.load)
+                              for plan in plans for cue in plan.cues)
+
+
+def margins_from_loads(loads: Iterable[tuple[int, str, str | None, Mapping[str, Any] | None]]) -> list[Margin]:
+    """Collect each rig cue's limit usage across nights.
+
+    :param loads: ``(performance id, cue label, rig slug, load)`` in night order, where
+        ``load`` is the rig solver's ``to_dict()`` (its ``checks``, each with ``limit``,
+        ``label`` and ``usage``) or None; a cue with no rig or no load is skipped. A
+        season repeats the same few loads (one per rig version and riders' masses): pass
+        the same dict for equal loads and its checks are read once.
+    """
+    series: dict[tuple[str, str, str], list] = {}      # (cue, rig, limit) -> [label, points]
+    read: dict[int, tuple[Mapping, list]] = {}          # id(load) -> (load, [(limit, label, usage)])
+    for pid, cue, rig, load in loads:
+        if not rig or not load:
+            continue
+        found = read.get(id(load))
+        if found is None or found[0] is not load:
+            found = read[id(load)] = (load, [(c["limit"], c.get("label") or c["limit"], float(c["usage"]))
+                                             for c in load.get("checks", ()) if c.get("usage") is not None])
+        for limit, label, usage in found[1]:
+            entry = series.get((cue, rig, limit))
+            if entry is None:
+                entry = series[(cue, rig, limit)] = [label, []]
+            entry[0] = label
+            entry[1].append((pid, usage))
+    return [Margin(cue, rig, limit, label, tuple(points)) for (cue, rig, limit), (label, points) in series.items()]

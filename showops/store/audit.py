@@ -26,7 +26,7 @@ from showops.audit.deviations import (COLUMNS, CUE_EVENTS, DETAIL_EVENTS, RULE_S
 from showops.audit.report import Note, ShowReport, running_order, signoff_name
 from showops.audit.risk import assess
 from showops.audit.season import (ActionRef, CueRef, PerformanceRef, RecordRef, SeasonAudit, build_season,
-                                  margins_from_plans)
+                                  margins_from_loads)
 from showops.errors import NotFound, PermissionDenied, Refused, ValidationError
 from showops.store.db import transaction
 
@@ -755,29 +755,22 @@ def show_report(db: sqlite_utils.Database, performance_ref: Any, *, now: datetim
                       sign["at_utc"] if signed else None, info["first_row"], info["last_row"], info["last_hash"])
 
 
-_MARGIN_CACHE: dict[tuple, tuple] = {}
+#: Rig solves for the load margins, shared across calls: a solve depends only on the rig
+#: version and the riders' masses (``RigSolver`` keys it so), so it never goes stale.
+_MARGIN_SOLVER = None
 
 
 def _margins(db, ids: list[int]):
-    """Each rig cue's limit usage per night, from the night plans (cached while the
-    riders, their masses and the rig versions stay the same)."""
-    from showops.store.show import night_plans
+    """Each rig cue's limit usage per night: the loads of the night plans
+    (``store.show.night_loads``), solved once per rig version and riders' masses."""
+    global _MARGIN_SOLVER
+    from showops.show.verdicts import RigSolver
+    from showops.store.show import night_loads
 
-    stamp = db.execute(
-        "SELECT (SELECT coalesce(max(id), 0) FROM rig_version), (SELECT coalesce(max(id), 0) FROM procedure_version),"
-        " (SELECT count(*) || ':' || total(performance_id * 7919 + cue_id * 104729 + person_id)"
-        "  FROM performance_rider), (SELECT total(mass_kg) || ':' || count(*) FROM performer),"
-        " (SELECT count(*) || ':' || total(id) FROM performance)").fetchone()
-    key = (_db_file(db), tuple(ids))
-    hit = _MARGIN_CACHE.get(key)
-    if hit is not None and hit[0] == stamp:
-        return list(hit[1])
-    wanted = set(ids)
-    found = margins_from_plans(p for p in night_plans(db) if p.performance_id in wanted)
-    if len(_MARGIN_CACHE) >= _SCAN_CACHE_MAX:
-        _MARGIN_CACHE.pop(next(iter(_MARGIN_CACHE)))
-    _MARGIN_CACHE[key] = (stamp, tuple(found))
-    return found
+    if _MARGIN_SOLVER is None:
+        _MARGIN_SOLVER = RigSolver()
+    return margins_from_loads((pid, f"{number} {name}".strip(), rig, load)
+                              for pid, number, name, rig, load in night_loads(db, ids, solver=_MARGIN_SOLVER))
 
 
 def season_audit(db: sqlite_utils.Database, date_from: date, date_to: date, *, today: date | None = None,
