@@ -11,6 +11,7 @@ from collections import Counter
 from dataclasses import dataclass, field
 from datetime import date
 from functools import cached_property
+from operator import itemgetter
 from typing import Any, Iterable, Mapping, Sequence
 
 from showops.audit.deviations import RULES, Deviation
@@ -82,12 +83,17 @@ class Margin:
     usage_by_performance: tuple[tuple[int, float], ...]   # (performance id, figure / limit)
 
     @cached_property
-    def worst_usage(self) -> float:
-        return max(u for _, u in self.usage_by_performance)
+    def _worst(self) -> tuple[int, float]:
+        # the first night with the highest usage (one pass, the key read in C)
+        return max(self.usage_by_performance, key=itemgetter(1))
 
-    @cached_property
+    @property
+    def worst_usage(self) -> float:
+        return self._worst[1]
+
+    @property
     def worst_performance(self) -> int:
-        return max(self.usage_by_performance, key=lambda pu: pu[1])[0]
+        return self._worst[0]
 
     @cached_property
     def least_margin(self) -> float:
@@ -248,18 +254,24 @@ def margins_from_loads(loads: Iterable[tuple[int, str, str | None, Mapping[str, 
         the same dict for equal loads and its checks are read once.
     """
     series: dict[tuple[str, str, str], list] = {}      # (cue, rig, limit) -> [label, points]
-    read: dict[int, tuple[Mapping, list]] = {}          # id(load) -> (load, [(limit, label, usage)])
+    # (cue, rig, id(load)) -> (load, [(series entry, label, usage)]): a cue's nights with an
+    # equal load only append their points
+    bound: dict[tuple[str, str, int], tuple[Mapping, list]] = {}
     for pid, cue, rig, load in loads:
         if not rig or not load:
             continue
-        found = read.get(id(load))
+        found = bound.get((cue, rig, id(load)))
         if found is None or found[0] is not load:
-            found = read[id(load)] = (load, [(c["limit"], c.get("label") or c["limit"], float(c["usage"]))
-                                             for c in load.get("checks", ()) if c.get("usage") is not None])
-        for limit, label, usage in found[1]:
-            entry = series.get((cue, rig, limit))
-            if entry is None:
-                entry = series[(cue, rig, limit)] = [label, []]
+            entries = []
+            for c in load.get("checks", ()):
+                if c.get("usage") is None:
+                    continue
+                entry = series.get((cue, rig, c["limit"]))
+                if entry is None:
+                    entry = series[(cue, rig, c["limit"])] = ["", []]
+                entries.append((entry, c.get("label") or c["limit"], float(c["usage"])))
+            found = bound[(cue, rig, id(load))] = (load, entries)
+        for entry, label, usage in found[1]:
             entry[0] = label
             entry[1].append((pid, usage))
     return [Margin(cue, rig, limit, label, tuple(points)) for (cue, rig, limit), (label, points) in series.items()]
