@@ -27,7 +27,7 @@ from showops.audit.report import Note, ShowReport, running_order, signoff_name
 from showops.audit.risk import assess
 from showops.audit.season import (ActionRef, CueRef, PerformanceRef, RecordRef, SeasonAudit, build_season,
                                   margins_from_loads)
-from showops.errors import NotFound, PermissionDenied, Refused, ValidationError
+from showops.errors import NotFound, PermissionDenied, Refused, ShowopsError, ValidationError
 from showops.store.db import transaction
 
 #: Roles that may classify, investigate, set and move actions, and close.
@@ -692,6 +692,29 @@ def find_deviations(db: sqlite_utils.Database, performance_ids: Iterable[int] | 
         _SCAN_CACHE.pop(next(iter(_SCAN_CACHE)))
     _SCAN_CACHE[key] = (stamp, tuple(out))
     return out
+
+
+def warm_deviation_scans(instance: str | Path) -> int | None:
+    """Bring every performance's stored scan up to date on a connection of its own.
+
+    ``showops serve`` runs it once in the background as it starts, so that the first
+    audit page after a restart, an upgrade or a rule change reads stored scans.
+
+    :returns: the number of deviations, or None when the database could not be opened,
+        read or written (nothing is lost: the first audit page scans instead).
+    """
+    from showops.store.db import open_db
+
+    try:
+        db = open_db(instance, create=False)
+    except (ShowopsError, sqlite3.Error, OSError):
+        return None
+    try:
+        return len(find_deviations(db))
+    except (ShowopsError, sqlite3.Error, OSError):
+        return None
+    finally:
+        db.conn.close()
 
 
 def find_deviation(db: sqlite_utils.Database, key: str, *, now: datetime | None = None) -> Deviation:

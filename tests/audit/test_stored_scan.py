@@ -153,3 +153,28 @@ def test_a_scan_that_cannot_be_stored_is_still_answered(inst, scanned):
     finally:
         readonly.conn.close()
     assert stored(inst) == {}
+
+
+def test_the_warm_up_stores_every_performance(inst, scanned, tmp_path):
+    inst.run_cue(inst.perf1, hold=True)
+    inst.run_cue(inst.perf2)
+    assert store.warm_deviation_scans(inst.folder) == 1
+    assert set(stored(inst)) == {inst.perf1, inst.perf2}
+    assert store.warm_deviation_scans(tmp_path / "no-instance-here") is None
+
+
+def test_serve_starts_the_warm_up_in_the_background(inst, monkeypatch):
+    import threading
+
+    from click.testing import CliRunner
+
+    from showops.cli import main
+    from showops.web import close_stores
+
+    started, apps = threading.Event(), []
+    monkeypatch.setattr(store, "warm_deviation_scans", lambda instance: started.set())
+    monkeypatch.setattr("waitress.serve", lambda app, **kw: apps.append(app))
+    result = CliRunner().invoke(main, ["serve", "--instance", str(inst.folder)])
+    assert result.exit_code == 0, result.output
+    assert started.wait(10)
+    close_stores(apps[0])
