@@ -779,21 +779,36 @@ def show_report(db: sqlite_utils.Database, performance_ref: Any, *, now: datetim
 
 
 #: Rig solves for the load margins, shared across calls: a solve depends only on the rig
-#: version and the riders' masses (``RigSolver`` keys it so), so it never goes stale.
+#: version and the riders' masses (``RigSolver`` keys it so), so it never goes stale; with
+#: the memo, the same solve gives the same dict on every call.
 _MARGIN_SOLVER = None
+_MARGIN_MEMO: dict = {}
+#: (performance, cue number, name, rig, id of the solve's dict) of every rig cue's night
+#: -> the margins: they are a function of exactly that, so an equal key is the same answer.
+_MARGIN_CACHE: dict[tuple, list] = {}
+_MARGIN_CACHE_MAX = 4
 
 
 def _margins(db, ids: list[int]):
     """Each rig cue's limit usage per night: the loads of the night plans
-    (``store.show.night_loads``), solved once per rig version and riders' masses."""
+    (``store.show.night_loads``), solved once per rig version and riders' masses, and
+    collected again only when a night's riders, masses, cues or rig versions changed."""
     global _MARGIN_SOLVER
     from showops.show.verdicts import RigSolver
     from showops.store.show import night_loads
 
     if _MARGIN_SOLVER is None:
         _MARGIN_SOLVER = RigSolver()
-    return margins_from_loads((pid, f"{number} {name}".strip(), rig, load)
-                              for pid, number, name, rig, load in night_loads(db, ids, solver=_MARGIN_SOLVER))
+    loads = night_loads(db, ids, solver=_MARGIN_SOLVER, memo=_MARGIN_MEMO)
+    key = tuple((pid, number, name, rig, id(load)) for pid, number, name, rig, load in loads)
+    found = _MARGIN_CACHE.get(key)
+    if found is None:
+        found = margins_from_loads((pid, f"{number} {name}".strip(), rig, load)
+                                   for pid, number, name, rig, load in loads)
+        if len(_MARGIN_CACHE) >= _MARGIN_CACHE_MAX:
+            _MARGIN_CACHE.pop(next(iter(_MARGIN_CACHE)))
+        _MARGIN_CACHE[key] = found
+    return list(found)
 
 
 def season_audit(db: sqlite_utils.Database, date_from: date, date_to: date, *, today: date | None = None,

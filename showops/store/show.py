@@ -582,7 +582,7 @@ def night_plans(db: sqlite_utils.Database, *, solver: RigSolver | None = None) -
 
 
 def night_loads(db: sqlite_utils.Database, performance_ids: Iterable[int] | None = None, *,
-                solver: RigSolver | None = None) -> list[tuple[int, str, str, str, dict]]:
+                solver: RigSolver | None = None, memo: dict | None = None) -> list[tuple[int, str, str, str, dict]]:
     """Each rig cue's load on each performance, without the rest of the night's plan.
 
     Returns ``(performance id, cue number, cue name, rig slug, load)`` in date order and
@@ -595,6 +595,9 @@ def night_loads(db: sqlite_utils.Database, performance_ids: Iterable[int] | None
     masses (``solver``); equal solves give the same dict. No one person's mass is in it.
 
     :param performance_ids: the performances wanted (default every one).
+    :param memo: the solves' dicts (``id(result) -> (result, dict)``); a caller that
+        keeps it, with the same ``solver``, gets the same dict for the same solve on
+        every call.
     """
     solver = solver or RigSolver()
     q = db.execute
@@ -616,17 +619,17 @@ def night_loads(db: sqlite_utils.Database, performance_ids: Iterable[int] | None
         if pid in masses:
             riders.setdefault((perf, cue), []).append(masses[pid])
     wanted = None if performance_ids is None else set(performance_ids)
-    loads: dict[int, dict] = {}
+    loads: dict[int, tuple[Any, dict]] = {} if memo is None else memo
     out = []
     for perf, production in q("SELECT id, production_id FROM performance ORDER BY starts_at, id"):
         if wanted is not None and perf not in wanted:
             continue
         for cue_id, number, name, rig in cues.get(production, ()):
             result = solver(rigs[rig], riders.get((perf, cue_id), ()))
-            load = loads.get(id(result))
-            if load is None:
-                load = loads[id(result)] = solver.as_dict(result)
-            out.append((perf, number, name, rig, load))
+            found = loads.get(id(result))
+            if found is None or found[0] is not result:
+                found = loads[id(result)] = (result, solver.as_dict(result))
+            out.append((perf, number, name, rig, found[1]))
     return out
 
 
