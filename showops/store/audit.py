@@ -13,6 +13,7 @@ import hashlib
 import json
 import secrets
 import sqlite3
+import threading
 from dataclasses import dataclass
 from datetime import date, datetime, timezone
 from pathlib import Path
@@ -539,6 +540,7 @@ _SCAN_SELECT = "SELECT {} FROM step_log".format(", ".join(
 #: scan's version is the same.
 _SCAN_CACHE: dict[tuple, tuple] = {}
 _SCAN_CACHE_MAX = 16
+_SCAN_LOCK = threading.Lock()
 
 
 def forget_scans_in_memory() -> None:
@@ -673,35 +675,43 @@ def find_deviations(db: sqlite_utils.Database, performance_ids: Iterable[int] | 
     hit = _SCAN_CACHE.get(key)
     if hit is not None and hit[0] == stamp:
         return list(hit[1])
-    last = _last_rows(db, ids, log_top)
-    stored = _stored_scans(db, last)
-    found: dict[int, list[Deviation]] = {}
-    stale = []
-    for pid, last_id in last.items():
-        row = stored.get(pid)
-        if row is not None and row[0] == last_id and row[1] == version and row[2] == (pid in finished) \
-                and (row[3] is None or row[3] == procedures_top):
-            found[pid] = _deviations_from_json(pid, row[4])
-        else:
-            stale.append(pid)
-    if stale:
-        found.update(_rescan(db, stale, last, log_top, finished, version, procedures_top))
-    out = [d for pid in last for d in found.get(pid, ())]
-    out.sort(key=deviation_order)
-    if len(_SCAN_CACHE) >= _SCAN_CACHE_MAX:
-        _SCAN_CACHE.pop(next(iter(_SCAN_CACHE)))
-    _SCAN_CACHE[key] = (stamp, tuple(out))
+    # One scan at a time in this process: a page opened while the warm-up scans waits for
+    # its stored result instead of scanning the same rows beside it.
+    with _SCAN_LOCK:
+        hit = _SCAN_CACHE.get(key)
+        if hit is not None and hit[0] == stamp:
+            return list(hit[1])
+        last = _last_rows(db, ids, log_top)
+        stored = _stored_scans(db, last)
+        found: dict[int, list[Deviation]] = {}
+        stale = []
+        for pid, last_id in last.items():
+            row = stored.get(pid)
+            if row is not None and row[0] == last_id and row[1] == version and row[2] == (pid in finished) \
+                    and (row[3] is None or row[3] == procedures_top):
+                found[pid] = _deviations_from_json(pid, row[4])
+            else:
+                stale.append(pid)
+        if stale:
+            found.update(_rescan(db, stale, last, log_top, finished, version, procedures_top))
+        out = [d for pid in last for d in found.get(pid, ())]
+        out.sort(key=deviation_order)
+        if len(_SCAN_CACHE) >= _SCAN_CACHE_MAX:
+            _SCAN_CACHE.pop(next(iter(_SCAN_CACHE)))
+        _SCAN_CACHE[key] = (stamp, tuple(out))
     return out
 
 
-def warm_deviation_scans(instance: str | Path) -> int | None:
-    """Bring every performance's stored scan up to date on a connection of its own.
+def warm_audit(instance: str | Path) -> int | None:
+    """Bring every performance's stored deviation scan up to date, and work out the load
+    margins of every performance into this process's memory, on a connection of its own.
 
     ``showops serve`` runs it once in the background as it starts, so that the first
-    audit page after a restart, an upgrade or a rule change reads stored scans.
+    audit page after a restart, an upgrade or a rule change reads stored scans and
+    remembered margins (and finds the rig solver's modules loaded).
 
     :returns: the number of deviations, or None when the database could not be opened,
-        read or written (nothing is lost: the first audit page scans instead).
+        read or written (nothing is lost: the first audit page does the work instead).
     """
     from showops.store.db import open_db
 
@@ -710,7 +720,9 @@ def warm_deviation_scans(instance: str | Path) -> int | None:
     except (ShowopsError, sqlite3.Error, OSError):
         return None
     try:
-        return len(find_deviations(db))
+        found = len(find_deviations(db))
+        _margins(db, [pid for (pid,) in db.execute("SELECT id FROM performance")])
+        return found
     except (ShowopsError, sqlite3.Error, OSError):
         return None
     finally:

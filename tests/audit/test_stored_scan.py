@@ -155,12 +155,17 @@ def test_a_scan_that_cannot_be_stored_is_still_answered(inst, scanned):
     assert stored(inst) == {}
 
 
-def test_the_warm_up_stores_every_performance(inst, scanned, tmp_path):
+def test_the_warm_up_stores_every_performance(inst, scanned, tmp_path, monkeypatch):
     inst.run_cue(inst.perf1, hold=True)
     inst.run_cue(inst.perf2)
-    assert store.warm_deviation_scans(inst.folder) == 1
+    monkeypatch.setattr(store, "_MARGIN_CACHE", {})
+    assert store.warm_audit(inst.folder) == 1
     assert set(stored(inst)) == {inst.perf1, inst.perf2}
-    assert store.warm_deviation_scans(tmp_path / "no-instance-here") is None
+    # the margins of every performance are remembered: the page's call finds them
+    assert len(store._MARGIN_CACHE) == 1
+    margins = store._margins(inst.db, [inst.perf1, inst.perf2, inst.perf3])
+    assert margins and len(store._MARGIN_CACHE) == 1
+    assert store.warm_audit(tmp_path / "no-instance-here") is None
 
 
 def test_serve_starts_the_warm_up_in_the_background(inst, monkeypatch):
@@ -172,9 +177,45 @@ def test_serve_starts_the_warm_up_in_the_background(inst, monkeypatch):
     from showops.web import close_stores
 
     started, apps = threading.Event(), []
-    monkeypatch.setattr(store, "warm_deviation_scans", lambda instance: started.set())
+    monkeypatch.setattr(store, "warm_audit", lambda instance: started.set())
     monkeypatch.setattr("waitress.serve", lambda app, **kw: apps.append(app))
     result = CliRunner().invoke(main, ["serve", "--instance", str(inst.folder)])
     assert result.exit_code == 0, result.output
     assert started.wait(10)
     close_stores(apps[0])
+
+
+def test_a_page_opened_during_the_warm_up_waits_for_its_scan(inst, monkeypatch):
+    import threading
+    import time
+
+    from showops.store import open_db
+
+    inst.run_cue(inst.perf1, hold=True)
+    store.forget_scans_in_memory()
+    calls, real = [], store.scan_rows
+
+    def slow(rows, *args, **kwargs):
+        calls.append(1)
+        time.sleep(0.3)                 # the second caller arrives while this scan runs
+        return real(rows, *args, **kwargs)
+
+    monkeypatch.setattr(store, "scan_rows", slow)
+    answers = []
+
+    def open_page():
+        db = open_db(inst.folder)
+        try:
+            answers.append([d.to_dict() for d in store.find_deviations(db, now=NOW)])
+        finally:
+            db.conn.close()
+
+    threads = [threading.Thread(target=open_page) for _ in range(2)]
+    for t in threads:
+        t.start()
+        time.sleep(0.05)
+    for t in threads:
+        t.join(10)
+    assert len(answers) == 2 and answers[0] == answers[1] and answers[0]
+    assert len(calls) == 1
+    store.forget_scans_in_memory()
