@@ -210,9 +210,10 @@ def refusal_class(detail: Mapping) -> str:
 
 class _CueRun:
     # Rows are kept as the little they are needed for: (id, at_utc, its parsed time or
-    # None when it was not needed yet), or (id, person_id) for a confirmation. ``due`` is the row at which the next step fell due (the cue's
-    # start, or the previous step's completion); a step's hold counts from its go, else
-    # from then, as the live runner counts it (showops.live.runner.StepState.started_at).
+    # None when it was not needed yet), or (id, person_id) for a confirmation. ``due`` is
+    # the row at which the next step fell due (the cue's start, or the previous step's
+    # completion); a step's hold counts from its go, else from then, as the live runner
+    # counts it (showops.live.runner.StepState.started_at).
     __slots__ = ("started", "confirmed", "checked", "due", "go", "brake_off", "completed")
 
     def __init__(self, started: tuple[int, str, datetime | None]):
