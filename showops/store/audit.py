@@ -536,8 +536,8 @@ _SCAN_SELECT = "SELECT {} FROM step_log".format(", ".join(
         ", ".join(f"'{e}'" for e in sorted(DETAIL_EVENTS))) for c in COLUMNS))
 
 #: (database file, performances) -> (stamp, deviations): this process's last answer, reused
-#: while no log row or procedure version was added, the same nights are over and the
-#: scan's version is the same.
+#: while no log row of those performances and no procedure version was added, the same
+#: nights are over and the scan's version is the same.
 _SCAN_CACHE: dict[tuple, tuple] = {}
 _SCAN_CACHE_MAX = 16
 _SCAN_LOCK = threading.Lock()
@@ -551,6 +551,14 @@ def forget_scans_in_memory() -> None:
 def _db_file(db) -> str:
     row = db.execute("PRAGMA database_list").fetchone()
     return row[2] if row else ""
+
+
+def _touched(db, after: int, upto: int, ids: tuple[int, ...] | None) -> bool:
+    """True when a log row after ``after`` (up to ``upto``) belongs to one of the
+    performances (any, when ``ids`` is None); reads only those rows."""
+    found = {pid for (pid,) in db.execute("SELECT DISTINCT performance_id FROM step_log WHERE id > ? AND id <= ? "
+                                          "AND performance_id IS NOT NULL", [after, upto])}
+    return bool(found if ids is None else found.intersection(ids))
 
 
 def _last_rows(db, ids: tuple[int, ...] | None, log_top: int) -> dict[int, int]:
@@ -658,7 +666,7 @@ def find_deviations(db: sqlite_utils.Database, performance_ids: Iterable[int] | 
     (or whose night has just ended) are scanned again, and a fresh process reads the
     rest. Every rule keeps its state per performance, so the merged result is the one a
     scan of the whole log gives. The last answer is also kept in memory until a log row
-    or procedure version is added.
+    of those performances or a procedure version is added (a sign-in keeps it).
 
     :param rows: scan these rows (mappings) instead, storing nothing.
     """
@@ -674,6 +682,10 @@ def find_deviations(db: sqlite_utils.Database, performance_ids: Iterable[int] | 
     stamp = (log_top, procedures_top, version, finished if ids is None else finished.intersection(ids))
     hit = _SCAN_CACHE.get(key)
     if hit is not None and hit[0] == stamp:
+        return list(hit[1])
+    if hit is not None and hit[0][1:] == stamp[1:] and hit[0][0] < log_top \
+            and not _touched(db, hit[0][0], log_top, ids):
+        _SCAN_CACHE[key] = (stamp, hit[1])   # the new rows are sign-ins or other nights'
         return list(hit[1])
     # One scan at a time in this process: a page opened while the warm-up scans waits for
     # its stored result instead of scanning the same rows beside it.
@@ -721,7 +733,9 @@ def warm_audit(instance: str | Path) -> int | None:
         return None
     try:
         found = len(find_deviations(db))
-        _margins(db, [pid for (pid,) in db.execute("SELECT id FROM performance")])
+        every = [pid for (pid,) in db.execute("SELECT id FROM performance")]
+        find_deviations(db, every)      # the season pages' default period: every performance
+        _margins(db, every)
         return found
     except (ShowopsError, sqlite3.Error, OSError):
         return None

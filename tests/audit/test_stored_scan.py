@@ -219,3 +219,18 @@ def test_a_page_opened_during_the_warm_up_waits_for_its_scan(inst, monkeypatch):
     assert len(answers) == 2 and answers[0] == answers[1] and answers[0]
     assert len(calls) == 1
     store.forget_scans_in_memory()
+
+
+def test_rows_of_no_performance_or_another_keep_the_remembered_answer(inst, scanned, monkeypatch):
+    inst.run_cue(inst.perf1, hold=True)
+    inst.run_cue(inst.perf2)
+    first = store.find_deviations(inst.db, [inst.perf1], now=NOW)
+    inst.log("sign_in", performance=None, role="crew")               # a sign-in names no performance
+    inst.log("hold", performance=inst.perf2, cue=inst.cue_lift, role="spotter", person=(2, "Tomas Ilve"))
+    real, reread = store._last_rows, []
+    monkeypatch.setattr(store, "_last_rows", lambda *a: reread.append(a) or real(*a))
+    assert as_dicts(store.find_deviations(inst.db, [inst.perf1], now=NOW)) == as_dicts(first)
+    assert reread == []
+    # a row of the performance asked for is seen at once
+    hold = inst.log("hold", performance=inst.perf1, cue=inst.cue_lift, role="spotter", person=(2, "Tomas Ilve"))
+    assert hold["id"] in {d.row_ids[0] for d in store.find_deviations(inst.db, [inst.perf1], now=NOW)}
