@@ -2,21 +2,26 @@
 
 Each rule is named, has a one-line title and names where it comes from. The scan
 reads the rows once, in ``id`` order, keeping a little state per performance and
-cue, so a season of 150,000 rows takes well under a second (bench/bench_audit.py).
+cue. Every rule's state is per performance, so a performance's deviations depend on
+its own rows only: the store keeps each performance's scan and rescans only the
+performances whose rows have changed (``store.audit.find_deviations``).
 
 A :class:`Deviation` points at the rows that show it (``row_ids``) and has a stable
 ``key`` (rule and first row), so promoting it to a near miss is done once: the store
 refuses a second record for the same key.
 
-Rows are mappings with the ``step_log`` columns of DEVELOPERS.md (``id``,
-``at_utc``, ``device_at``, ``event``, ``person_id``, ``person_name``, ``role``,
-``performance_id``, ``cue_id``, ``step_key``, ``step_number``,
-``procedure_version``, ``detail`` ...).
+Rows are tuples of :data:`COLUMNS` for :func:`scan_rows` (what the store reads, a
+season of 190,000 rows in well under a second, bench/bench_audit.py), or mappings
+with those keys for :func:`scan`. :data:`RULE_SET_VERSION` changes whenever this
+module does, so a stored scan made by other rules is never reused.
 """
 
 from __future__ import annotations
 
+import hashlib
+import inspect
 import json
+import sys
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from functools import cached_property
@@ -72,6 +77,13 @@ CUE_EVENTS = frozenset(("cue_started", "standby", "go", "step_confirmed", "check
 #: project's choice: a phone that was offline for a minute; no published source).
 LATE_AFTER_S = 60.0
 
+#: The ``step_log`` columns the rules read, in the order :func:`scan_rows` takes them.
+COLUMNS: tuple[str, ...] = ("id", "at_utc", "device_at", "event", "person_id", "person_name", "role",
+                            "performance_id", "cue_id", "step_key", "step_number", "procedure_version", "detail")
+
+#: The only events whose ``detail`` the rules read (a refusal's reason, a HOLD's note,
+#: an ended cue's unfinished steps): a reader may pass None as any other row's detail.
+DETAIL_EVENTS = frozenset(("refused", "hold", "cue_completed"))
 
 
 @dataclass(frozen=True)
@@ -112,6 +124,10 @@ class ProcedureFacts:
 
         Returns None when none of those steps has a ``hold`` (nothing to judge by).
         """
+        return self._brake_off_allowance_s
+
+    @cached_property
+    def _brake_off_allowance_s(self) -> float | None:
         total, inside, any_hold = 0.0, False, False
         for step in self.steps:
             if "brake off" in step.sets:
@@ -163,8 +179,9 @@ def parse_utc(text: str) -> datetime:
     return out if out.tzinfo is not None else out.replace(tzinfo=timezone.utc)
 
 
-def _detail(row: Mapping) -> dict:
-    raw = row.get("detail")
+def _detail(raw: Any) -> dict:
+    """A row's ``detail`` (JSON text, or a dict) as a dict; text that is not a JSON object
+    becomes ``{"reason": text}``."""
     if not raw:
         return {}
     if isinstance(raw, dict):
@@ -192,160 +209,196 @@ def refusal_class(detail: Mapping) -> str:
 
 
 class _CueRun:
-    # ``due`` is the row at which the next step fell due (the cue's start, or the
-    # previous step's completion); a step's hold counts from its go, else from then,
-    # as the live runner counts it (showops.live.runner.StepState.started_at).
+    # Rows are kept as the little they are needed for: (id, at_utc, its parsed time or
+    # None when it was not needed yet), or (id, person_id) for a confirmation. ``due`` is
+    # the row at which the next step fell due (the cue's start, or the previous step's
+    # completion); a step's hold counts from its go, else from then, as the live runner
+    # counts it (showops.live.runner.StepState.started_at).
     __slots__ = ("started", "confirmed", "checked", "due", "go", "brake_off", "completed")
 
-    def __init__(self, started):
+    def __init__(self, started: tuple[int, str, datetime | None]):
         self.started = started
-        self.confirmed: dict[str, Mapping] = {}
-        self.checked: dict[str, Mapping] = {}
+        self.confirmed: dict[str, tuple[int, Any]] = {}
+        self.checked: set[str] = set()
         self.due = started
-        self.go: dict[str, Mapping] = {}
-        self.brake_off = None
-        self.completed = None
+        self.go: dict[str, tuple[int, str, datetime | None]] = {}
+        self.brake_off: tuple[int, str, str | None] | None = None
+        self.completed: int | None = None
+
+
+def deviation_order(d: Deviation) -> tuple[int, str]:
+    """The order :func:`scan` returns deviations in: by first row, then rule. Results of
+    separate performances merged and sorted by this are in the order of one scan of all."""
+    return (d.row_ids[0] if d.row_ids else 0, d.rule)
 
 
 def scan(rows: Iterable[Mapping], procedures: Mapping[str, ProcedureFacts], *,
          late_after_s: float = LATE_AFTER_S, finished: Iterable[int] | None = None) -> list[Deviation]:
-    """Run every rule over ``rows`` (in ``id`` order) and return the deviations found.
+    """Run every rule over ``rows`` (mappings with the :data:`COLUMNS` keys, in ``id``
+    order) and return the deviations found. See :func:`scan_rows`."""
+    return scan_rows((tuple(row.get(c) for c in COLUMNS) for row in rows), procedures,
+                     late_after_s=late_after_s, finished=finished)
+
+
+def scan_rows(rows: Iterable[Sequence], procedures: Mapping[str, ProcedureFacts], *,
+              late_after_s: float = LATE_AFTER_S, finished: Iterable[int] | None = None) -> list[Deviation]:
+    """Run every rule over ``rows``, tuples of the :data:`COLUMNS` in that order, and
+    return the deviations found (sorted by :func:`deviation_order`).
+
+    Rows must be in ``id`` order within each performance; every rule keeps its state
+    per performance (and cue), so scanning performances apart and merging gives the
+    same deviations as one scan of all. A row's ``detail`` is read only for
+    :data:`DETAIL_EVENTS`.
 
     :param procedures: procedure version -> its facts; cues whose version is unknown
         are still checked by the rules that need no procedure (refusals, holds, late
         records, self-checks, sign-off).
     :param finished: the performances whose night is over; only these are checked
         for cues left open and a missing sign-off. ``None`` checks every one.
+    :raises ValueError: when a row has not exactly the :data:`COLUMNS` (or a time
+        cannot be read as ISO 8601).
     """
     finished_set = None if finished is None else set(finished)
     out: list[Deviation] = []
     runs: dict[tuple[int, int], _CueRun] = {}
-    last_row: dict[int, Mapping] = {}       # performance -> last cue-related row
-    signoff: dict[int, Mapping] = {}        # performance -> last signoff row
+    last_row: dict[int, tuple[int, str]] = {}   # performance -> (id, at_utc) of its last cue row
+    signoff: dict[int, int] = {}                # performance -> id of its last signoff row
     add = out.append
+    facts_of = procedures.get
+    cue_events = CUE_EVENTS
+    fromiso, utc = _fromiso, timezone.utc
+    same_minute_is_on_time = late_after_s >= 60.0
+    facts, last_version = None, object()
+    run, run_pid, run_cid = None, None, None
 
-    for row in rows:
-        event = row["event"]
-        pid = row.get("performance_id")
+    for rid, at, device_at, event, person_id, person_name, role, pid, cid, key, number, version, detail in rows:
         if pid is None:
             continue
-        cid = row.get("cue_id")
-        rid = row["id"]
-        at = row["at_utc"]
-        device_at = row.get("device_at")
-        if device_at and device_at != at:
-            gap = (parse_utc(at) - parse_utc(device_at)).total_seconds()
+        at_time = None
+        # Same date, hour and minute at the same UTC offset: less than 60 s apart, so not
+        # late under any threshold of 60 s or more; most confirmations end here unparsed.
+        if device_at and device_at != at and not (
+                same_minute_is_on_time and at[:16] == device_at[:16] and at[-6:] == device_at[-6:]
+                and at[-6] in "+-" and at[-3] == ":"):
+            at_time = fromiso(at)
+            if at_time.tzinfo is None:
+                at_time = at_time.replace(tzinfo=utc)
+            gap = (at_time - parse_utc(device_at)).total_seconds()
             if abs(gap) > late_after_s:
                 word = "after" if gap > 0 else "before"
-                add(Deviation("late_record", pid, cid, row.get("step_key"), (rid,), at,
-                              f"{event} by {row.get('person_name') or '?'} reached the server {abs(gap):.0f} s "
+                add(Deviation("late_record", pid, cid, key, (rid,), at,
+                              f"{event} by {person_name or '?'} reached the server {abs(gap):.0f} s "
                               f"{word} the device's time (limit {late_after_s:.0f} s)",
                               {"gap_s": gap}))
         if event == "signoff":
-            signoff[pid] = row
+            signoff[pid] = rid
             continue
         if event == "refused":
-            detail = _detail(row)
-            cls = refusal_class(detail)
-            reason = detail.get("reason") or detail.get("message") or cls.replace("_", " ")
-            add(Deviation("refused_attempt", pid, cid, row.get("step_key"), (rid,), at,
-                          f"{row.get('person_name') or '?'}" + (f" ({row['role']})" if row.get('role') else "") + f" refused: {reason}",
+            info = _detail(detail)
+            cls = refusal_class(info)
+            reason = info.get("reason") or info.get("message") or cls.replace("_", " ")
+            add(Deviation("refused_attempt", pid, cid, key, (rid,), at,
+                          f"{person_name or '?'}" + (f" ({role})" if role else "") + f" refused: {reason}",
                           {"class": cls}))
             continue
         if event == "hold":
-            detail = _detail(row)
-            reason = detail.get("note") or detail.get("reason") or ""
-            add(Deviation("hold", pid, cid, row.get("step_key"), (rid,), at,
-                          f"HOLD by {row.get('person_name') or '?'}" + (f": {reason}" if reason else ""), {}))
-        if cid is None or event not in CUE_EVENTS:
+            info = _detail(detail)
+            reason = info.get("note") or info.get("reason") or ""
+            add(Deviation("hold", pid, cid, key, (rid,), at,
+                          f"HOLD by {person_name or '?'}" + (f": {reason}" if reason else ""), {}))
+        if cid is None or event not in cue_events:
             continue   # care and audit events name a cue too; they are not part of running it
-        last_row[pid] = row
+        last_row[pid] = (rid, at)
         if event == "cue_started":
-            runs[(pid, cid)] = _CueRun(row)
+            run = runs[(pid, cid)] = _CueRun((rid, at, at_time))
+            run_pid, run_cid = pid, cid
             continue
-        run = runs.get((pid, cid))
-        if run is None:
-            run = runs[(pid, cid)] = _CueRun(row)
-        facts = procedures.get(row.get("procedure_version") or "")
-        key = row.get("step_key")
+        if cid != run_cid or pid != run_pid:   # a cue's rows mostly come one after another
+            run = runs.get((pid, cid))
+            if run is None:
+                run = runs[(pid, cid)] = _CueRun((rid, at, at_time))
+            run_pid, run_cid = pid, cid
+        if version != last_version:   # a night's rows name the same few versions over and over
+            facts, last_version = facts_of(version or ""), version
         if event == "go":
-            run.go.setdefault(key, row)
+            run.go.setdefault(key, (rid, at, at_time))
         elif event == "step_confirmed":
-            run.confirmed[key] = row
+            run.confirmed[key] = (rid, person_id)
             step = facts.by_key.get(key) if facts else None
             if step is not None:
                 if step.hold_s is not None:
                     begin = run.go.get(key) or run.due
-                    elapsed = (parse_utc(at) - parse_utc(begin["at_utc"])).total_seconds()
+                    if at_time is None:
+                        at_time = fromiso(at)
+                        if at_time.tzinfo is None:
+                            at_time = at_time.replace(tzinfo=utc)
+                    elapsed = (at_time - (begin[2] or parse_utc(begin[1]))).total_seconds()
                     if elapsed > step.hold_s:
-                        add(Deviation("past_hold_time", pid, cid, key, (begin["id"], rid), at,
+                        add(Deviation("past_hold_time", pid, cid, key, (begin[0], rid), at,
                                       f"step {step.number} '{step.title}' took {elapsed:.0f} s; its hold is "
                                       f"{step.hold_s:.0f} s", {"elapsed_s": elapsed, "hold_s": step.hold_s}))
                 if "brake off" in step.sets:
-                    run.brake_off = row
+                    run.brake_off = (rid, at, key)
                 elif "brake on" in step.sets and run.brake_off is not None:
-                    _brake_interval(run, row, facts, add)
+                    _brake_interval(run, pid, cid, rid, at, facts, add)
                 if not step.check:
-                    run.due = row
+                    run.due = (rid, at, at_time)
             elif not facts:
-                run.due = row
+                run.due = (rid, at, at_time)
         elif event == "check_confirmed":
-            run.checked[key] = row
-            run.due = row
+            run.checked.add(key)
+            run.due = (rid, at, at_time)
             acted = run.confirmed.get(key)
-            if acted is not None and acted.get("person_id") == row.get("person_id") \
-                    and row.get("person_id") is not None:
-                add(Deviation("self_check", pid, cid, key, (acted["id"], rid), at,
-                              f"{row.get('person_name') or '?'} both acted on and checked step "
-                              f"{row.get('step_number') or key}", {}))
+            if acted is not None and acted[1] == person_id and person_id is not None:
+                add(Deviation("self_check", pid, cid, key, (acted[0], rid), at,
+                              f"{person_name or '?'} both acted on and checked step {number or key}", {}))
         elif event == "cue_completed":
-            run.completed = row
-            unfinished = _detail(row).get("unfinished") if facts is None else None
+            run.completed = rid
+            unfinished = _detail(detail).get("unfinished") if facts is None else None
             if unfinished:
                 add(Deviation("unconfirmed_at_completion", pid, cid, None, (rid,), at,
                               f"cue ended with {len(unfinished)} step(s) unconfirmed", {"missing": unfinished}))
             if facts is not None:
-                missing = [s for s in facts.steps if s.key not in run.confirmed
-                           or (s.check and s.key not in run.checked)]
+                confirmed, checked = run.confirmed, run.checked
+                missing = [s for s in facts.steps if s.key not in confirmed or (s.check and s.key not in checked)]
                 if missing:
-                    names = ", ".join(f"{s.number} {s.title}" + (" (check)" if s.key in run.confirmed else "")
+                    names = ", ".join(f"{s.number} {s.title}" + (" (check)" if s.key in confirmed else "")
                                       for s in missing)
                     add(Deviation("unconfirmed_at_completion", pid, cid, missing[0].key, (rid,), at,
                                   f"cue completed with {len(missing)} step(s) unconfirmed: {names}",
                                   {"missing": [s.key for s in missing]}))
             if run.brake_off is not None:
-                _brake_interval(run, row, facts, add, closed=False)
+                _brake_interval(run, pid, cid, rid, at, facts, add, closed=False)
 
     for (pid, cid), run in runs.items():
         if finished_set is not None and pid not in finished_set:
             continue
         if run.completed is None:
-            add(Deviation("cue_left_open", pid, cid, None, (run.started["id"],), run.started["at_utc"],
+            add(Deviation("cue_left_open", pid, cid, None, (run.started[0],), run.started[1],
                           "cue started and never marked complete", {}))
-    for pid, row in last_row.items():
+    for pid, (last_id, last_at) in last_row.items():
         if finished_set is not None and pid not in finished_set:
             continue
         sign = signoff.get(pid)
-        if sign is None or sign["id"] < row["id"]:
-            add(Deviation("signoff_missing", pid, None, None, (row["id"],), row["at_utc"],
+        if sign is None or sign < last_id:
+            add(Deviation("signoff_missing", pid, None, None, (last_id,), last_at,
                           "no sign-off after the night's last cue", {}))
-    out.sort(key=lambda d: (d.row_ids[0] if d.row_ids else 0, d.rule))
+    out.sort(key=deviation_order)
     return out
 
 
-def _brake_interval(run: _CueRun, row: Mapping, facts: ProcedureFacts | None, add, *, closed: bool = True) -> None:
+def _brake_interval(run: _CueRun, pid: int, cid: int, rid: int, at: str, facts: ProcedureFacts | None, add, *,
+                    closed: bool = True) -> None:
     allowed = facts.brake_off_allowance_s() if facts else None
-    off = run.brake_off
+    off_id, off_at, off_key = run.brake_off
     run.brake_off = None
-    elapsed = (parse_utc(row["at_utc"]) - parse_utc(off["at_utc"])).total_seconds()
+    elapsed = (parse_utc(at) - parse_utc(off_at)).total_seconds()
     if not closed:
-        add(Deviation("brake_off_too_long", off["performance_id"], off["cue_id"], off.get("step_key"),
-                      (off["id"], row["id"]), row["at_utc"],
+        add(Deviation("brake_off_too_long", pid, cid, off_key, (off_id, rid), at,
                       f"brake released and not put back on before the cue was completed ({elapsed:.0f} s)",
                       {"elapsed_s": elapsed, "allowed_s": allowed}))
     elif allowed is not None and elapsed > allowed:
-        add(Deviation("brake_off_too_long", off["performance_id"], off["cue_id"], off.get("step_key"),
-                      (off["id"], row["id"]), row["at_utc"],
+        add(Deviation("brake_off_too_long", pid, cid, off_key, (off_id, rid), at,
                       f"brake off for {elapsed:.0f} s; the procedure allows {allowed:.0f} s",
                       {"elapsed_s": elapsed, "allowed_s": allowed}))
 
@@ -356,3 +409,20 @@ def counts_by_rule(deviations: Sequence[Deviation]) -> dict[str, int]:
     for d in deviations:
         counts[d.rule] += 1
     return counts
+
+
+def _rule_set_version() -> str:
+    digest = hashlib.sha256()
+    try:
+        digest.update(inspect.getsource(sys.modules[__name__]).encode())
+    except (OSError, TypeError):  # no source beside the code: hash what the rules are made of
+        digest.update(repr((sorted(RULES.items()), sorted(REFUSAL_CODES.items()), REFUSAL_CLASSES,
+                            sorted(CUE_EVENTS), LATE_AFTER_S, COLUMNS, sorted(DETAIL_EVENTS))).encode())
+        for func in (scan_rows, _brake_interval, refusal_class, ProcedureFacts._brake_off_allowance_s.func):
+            digest.update(func.__code__.co_code)
+    return digest.hexdigest()[:12]
+
+
+#: A short hash of this module's text: changes whenever a rule, a title, a threshold or
+#: the scan changes, so a scan stored by other rules is never reused.
+RULE_SET_VERSION: str = _rule_set_version()

@@ -7,10 +7,11 @@ one :class:`SeasonAudit`, so they show the same figures.
 
 from __future__ import annotations
 
-from collections import Counter, defaultdict
+from collections import Counter
 from dataclasses import dataclass, field
 from datetime import date
 from functools import cached_property
+from operator import itemgetter
 from typing import Any, Iterable, Mapping, Sequence
 
 from showops.audit.deviations import RULES, Deviation
@@ -82,12 +83,17 @@ class Margin:
     usage_by_performance: tuple[tuple[int, float], ...]   # (performance id, figure / limit)
 
     @cached_property
-    def worst_usage(self) -> float:
-        return max(u for _, u in self.usage_by_performance)
+    def _worst(self) -> tuple[int, float]:
+        # the first night with the highest usage (one pass, the key read in C)
+        return max(self.usage_by_performance, key=itemgetter(1))
 
-    @cached_property
+    @property
+    def worst_usage(self) -> float:
+        return self._worst[1]
+
+    @property
     def worst_performance(self) -> int:
-        return max(self.usage_by_performance, key=lambda pu: pu[1])[0]
+        return self._worst[0]
 
     @cached_property
     def least_margin(self) -> float:
@@ -234,17 +240,38 @@ def margins_from_plans(plans: Iterable[Any]) -> list[Margin]:
         ``load`` is the rig solver's ``to_dict()`` with its ``checks`` (``limit``,
         ``label``, ``usage``).
     """
-    series: dict[tuple[str, str, str], dict] = defaultdict(lambda: {"label": "", "points": []})
-    for plan in plans:
-        for cue in plan.cues:
-            if not cue.rig or not cue.load:
-                continue
-            label = f"{cue.number} {cue.name}".strip()
-            for check in cue.load.get("checks", ()):
-                usage = check.get("usage")
-                if usage is None:
+    return margins_from_loads((plan.performance_id, f"{cue.number} {cue.name}".strip(), cue.rig, cue.load)
+                              for plan in plans for cue in plan.cues)
+
+
+def margins_from_loads(loads: Iterable[tuple[int, str, str | None, Mapping[str, Any] | None]]) -> list[Margin]:
+    """Collect each rig cue's limit usage across nights.
+
+    :param loads: ``(performance id, cue label, rig slug, load)`` in night order, where
+        ``load`` is the rig solver's ``to_dict()`` (its ``checks``, each with ``limit``,
+        ``label`` and ``usage``) or None; a cue with no rig or no load is skipped. A
+        season repeats the same few loads (one per rig version and riders' masses): pass
+        the same dict for equal loads and its checks are read once.
+    """
+    series: dict[tuple[str, str, str], list] = {}      # (cue, rig, limit) -> [label, points]
+    # (cue, rig, id(load)) -> (load, [(series entry, label, usage)]): a cue's nights with an
+    # equal load only append their points
+    bound: dict[tuple[str, str, int], tuple[Mapping, list]] = {}
+    for pid, cue, rig, load in loads:
+        if not rig or not load:
+            continue
+        found = bound.get((cue, rig, id(load)))
+        if found is None or found[0] is not load:
+            entries = []
+            for c in load.get("checks", ()):
+                if c.get("usage") is None:
                     continue
-                entry = series[(label, cue.rig, check["limit"])]
-                entry["label"] = check.get("label") or check["limit"]
-                entry["points"].append((plan.performance_id, float(usage)))
-    return [Margin(cue, rig, limit, v["label"], tuple(v["points"])) for (cue, rig, limit), v in series.items()]
+                entry = series.get((cue, rig, c["limit"]))
+                if entry is None:
+                    entry = series[(cue, rig, c["limit"])] = ["", []]
+                entries.append((entry, c.get("label") or c["limit"], float(c["usage"])))
+            found = bound[(cue, rig, id(load))] = (load, entries)
+        for entry, label, usage in found[1]:
+            entry[0] = label
+            entry[1].append((pid, usage))
+    return [Margin(cue, rig, limit, label, tuple(points)) for (cue, rig, limit), (label, points) in series.items()]

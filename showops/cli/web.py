@@ -68,12 +68,19 @@ def serve(instance: Path, port: int, lan: bool, threads: int) -> None:
 
     Example: showops serve --instance ./instance --lan
     """
+    import threading
+
     import waitress
 
+    from showops.store.audit import warm_audit
     from showops.web import create_app
 
     host = lan_address() if lan else LOCALHOST
     app = create_app({"INSTANCE": str(instance)})
+    # The audit's stored scans and load margins brought up to date while the server starts
+    # answering: the first audit page then reads them, and no crew screen waits for it.
+    threading.Thread(target=warm_audit, args=(app.config["INSTANCE"],), name="showops-audit-warm",
+                     daemon=True).start()
     url = f"http://{host}:{port}/"
     click.echo(f"showops is serving {Path(instance).resolve()} at {url}")
     if lan:

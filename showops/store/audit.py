@@ -12,6 +12,8 @@ import csv
 import hashlib
 import json
 import secrets
+import sqlite3
+import threading
 from dataclasses import dataclass
 from datetime import date, datetime, timezone
 from pathlib import Path
@@ -20,12 +22,13 @@ from typing import Any, BinaryIO, Iterable
 import sqlite_utils
 
 from showops.audit import records as rec
-from showops.audit.deviations import CUE_EVENTS, Deviation, ProcedureFacts, scan
+from showops.audit.deviations import (COLUMNS, CUE_EVENTS, DETAIL_EVENTS, RULE_SET_VERSION, Deviation,
+                                      ProcedureFacts, deviation_order, scan, scan_rows)
 from showops.audit.report import Note, ShowReport, running_order, signoff_name
 from showops.audit.risk import assess
 from showops.audit.season import (ActionRef, CueRef, PerformanceRef, RecordRef, SeasonAudit, build_season,
-                                  margins_from_plans)
-from showops.errors import NotFound, PermissionDenied, Refused, ValidationError
+                                  margins_from_loads)
+from showops.errors import NotFound, PermissionDenied, Refused, ShowopsError, ValidationError
 from showops.store.db import transaction
 
 #: Roles that may classify, investigate, set and move actions, and close.
@@ -465,18 +468,31 @@ def log_rows(db: sqlite_utils.Database, performance_ids: Iterable[int] | None = 
     return [dict(zip(_LOG_COLS, row)) for row in cur]
 
 
-def procedure_facts(db: sqlite_utils.Database, versions: Iterable[str]) -> dict[str, ProcedureFacts]:
-    """Parse the stored procedure versions named in the log into rule facts."""
+def procedure_facts(db: sqlite_utils.Database, versions: Iterable[str] | None = None) -> dict[str, ProcedureFacts]:
+    """Parse stored procedure versions into rule facts: those named (the log's), or every
+    one on record when ``versions`` is None. A version's text never changes (it is its
+    SHA-256), so each is parsed once per process."""
     from showops.store.show import read_procedure
 
+    if versions is None:
+        wanted = [v for (v,) in db.execute("SELECT DISTINCT sha256 FROM procedure_version")]
+    else:
+        wanted = sorted({v for v in versions if v})
     out = {}
-    wanted = sorted({v for v in versions if v})
     for version in wanted:
-        row = db.execute("SELECT procedure_slug, text FROM procedure_version WHERE sha256 = ?", [version]).fetchone()
-        if row is None:
-            continue
-        out[version] = ProcedureFacts.from_procedure(read_procedure(row[1], f"procedures/{row[0]}.md"))
+        facts = _FACTS.get(version)
+        if facts is None:
+            row = db.execute("SELECT procedure_slug, text FROM procedure_version WHERE sha256 = ?",
+                             [version]).fetchone()
+            if row is None:
+                continue
+            facts = _FACTS[version] = ProcedureFacts.from_procedure(read_procedure(row[1], f"procedures/{row[0]}.md"))
+        out[version] = facts
     return out
+
+
+#: procedure version (SHA-256 of its text) -> its facts, parsed once per process
+_FACTS: dict[str, ProcedureFacts] = {}
 
 
 def _finished(db, now: datetime) -> set[int]:
@@ -491,11 +507,45 @@ def _finished(db, now: datetime) -> set[int]:
     return done
 
 
-#: (database file, performances) -> (last log id, finished nights, deviations). The log
-#: is append-only and procedure versions never change, so a scan stays right until a
-#: new row is appended or another night ends; the web pages reuse it between requests.
+def scan_version() -> str:
+    """The version a stored scan is made under: the deviation rules'
+    (:data:`~showops.audit.deviations.RULE_SET_VERSION`) and the procedure reader's, which
+    gives the rules each step's key, ``hold`` and ``sets``. A change to either changes it."""
+    global _SCAN_VERSION
+    if _SCAN_VERSION is None:
+        import inspect
+
+        from showops.procedure import model, parse
+
+        digest = hashlib.sha256(RULE_SET_VERSION.encode())
+        for module in (parse, model):
+            try:
+                digest.update(inspect.getsource(module).encode())
+            except (OSError, TypeError):  # no source beside the code
+                digest.update(repr(sorted(vars(module))).encode())
+        _SCAN_VERSION = f"{RULE_SET_VERSION}-{digest.hexdigest()[:12]}"
+    return _SCAN_VERSION
+
+
+_SCAN_VERSION: str | None = None
+
+#: The rows as the rules take them (``deviations.COLUMNS``); a ``detail`` is read only
+#: for the events whose detail the rules use.
+_SCAN_SELECT = "SELECT {} FROM step_log".format(", ".join(
+    c if c != "detail" else "CASE WHEN event IN ({}) THEN detail END".format(
+        ", ".join(f"'{e}'" for e in sorted(DETAIL_EVENTS))) for c in COLUMNS))
+
+#: (database file, performances) -> (stamp, deviations): this process's last answer, reused
+#: while no log row of those performances and no procedure version was added, the same
+#: nights are over and the scan's version is the same.
 _SCAN_CACHE: dict[tuple, tuple] = {}
 _SCAN_CACHE_MAX = 16
+_SCAN_LOCK = threading.Lock()
+
+
+def forget_scans_in_memory() -> None:
+    """Drop this process's remembered scans (the stored ones stay): what a fresh process sees."""
+    _SCAN_CACHE.clear()
 
 
 def _db_file(db) -> str:
@@ -503,30 +553,194 @@ def _db_file(db) -> str:
     return row[2] if row else ""
 
 
+def _touched(db, after: int, upto: int, ids: tuple[int, ...] | None) -> bool:
+    """True when a log row after ``after`` (up to ``upto``) belongs to one of the
+    performances (any, when ``ids`` is None); reads only those rows."""
+    found = {pid for (pid,) in db.execute("SELECT DISTINCT performance_id FROM step_log WHERE id > ? AND id <= ? "
+                                          "AND performance_id IS NOT NULL", [after, upto])}
+    return bool(found if ids is None else found.intersection(ids))
+
+
+def _last_rows(db, ids: tuple[int, ...] | None, log_top: int) -> dict[int, int]:
+    """Performance -> the id of its last log row up to ``log_top`` (performances with rows
+    only): one GROUP BY over the ``step_log_cue`` index."""
+    sql = "SELECT performance_id, max(id) FROM step_log WHERE id <= ? AND performance_id "
+    if ids is None:
+        return dict(db.execute(sql + "IS NOT NULL GROUP BY performance_id", [log_top]))
+    if not ids:
+        return {}
+    return dict(db.execute(sql + f"IN ({', '.join('?' * len(ids))}) GROUP BY performance_id", [log_top, *ids]))
+
+
+def _stored_scans(db, ids) -> dict[int, tuple]:
+    """Performance -> (last_row_id, scan_version, finished, procedures_seen, deviations JSON)."""
+    out = {}
+    ids = list(ids)
+    for i in range(0, len(ids), 500):
+        part = ids[i:i + 500]
+        for pid, *rest in db.execute("SELECT performance_id, last_row_id, scan_version, finished, procedures_seen, "
+                                     f"deviations FROM audit_scan WHERE performance_id IN "
+                                     f"({', '.join('?' * len(part))})", part):
+            out[pid] = tuple(rest)
+    return out
+
+
+def _deviations_from_json(pid: int, text: str) -> list[Deviation]:
+    return [Deviation(rule, pid, cue_id, step_key, tuple(row_ids), at_utc, note, detail)
+            for rule, cue_id, step_key, row_ids, at_utc, note, detail in json.loads(text)]
+
+
+def _deviations_to_json(devs: Iterable[Deviation]) -> str:
+    return json.dumps([[d.rule, d.cue_id, d.step_key, list(d.row_ids), d.at_utc, d.text, d.detail] for d in devs],
+                      ensure_ascii=False, separators=(",", ":"))
+
+
+def _store_scans(db, entries: list[tuple]) -> None:
+    """Keep scans for next time. A scan that cannot be kept (the database is busy past
+    its timeout, or read-only) is still right, only not kept: the error is not raised."""
+    if not entries:
+        return
+    conn = db.conn
+    conn.execute("SAVEPOINT audit_scan")
+    try:
+        conn.executemany("INSERT OR REPLACE INTO audit_scan (performance_id, last_row_id, scan_version, finished, "
+                         "procedures_seen, deviations, scanned_at) VALUES (?, ?, ?, ?, ?, ?, ?)", entries)
+    except sqlite3.OperationalError:
+        conn.execute("ROLLBACK TO audit_scan")
+    conn.execute("RELEASE audit_scan")
+
+
+class _FactsLookedUp(dict):
+    """Procedure facts that remember the versions asked for and not on record."""
+
+    def __init__(self, facts: dict):
+        super().__init__(facts)
+        self.missing: set[str] = set()
+
+    def get(self, version, default=None):
+        found = super().get(version, default)
+        if found is None and version:
+            self.missing.add(version)
+        return found
+
+
+def _rescan(db, stale: list[int], last: dict[int, int], log_top: int, finished: frozenset, version: str,
+            procedures_top: int) -> dict[int, list[Deviation]]:
+    """Scan the log rows (up to ``log_top``) of the ``stale`` performances, store each
+    one's scan, and return performance -> deviations.
+
+    :param last: performance -> its last row id up to ``log_top`` (at least the stale ones).
+
+    When they are half the performances or more, the whole log is read in one pass (in
+    ``id`` order, no sort) and every performance in it is scanned and stored.
+    """
+    performances = db.execute("SELECT count(*) FROM performance").fetchone()[0]
+    if len(stale) * 2 >= performances:
+        cur = db.execute(_SCAN_SELECT + " WHERE performance_id IS NOT NULL AND id <= ? ORDER BY id", [log_top])
+        if set(last) != set(stale):
+            last = _last_rows(db, None, log_top)
+        scanned = list(last)
+    else:
+        cur = db.execute(_SCAN_SELECT + f" WHERE performance_id IN ({', '.join('?' * len(stale))}) AND id <= ? "
+                         "ORDER BY id", [*stale, log_top])
+        scanned = stale
+    facts = _FactsLookedUp(procedure_facts(db))
+    found: dict[int, list[Deviation]] = {pid: [] for pid in scanned}
+    for d in scan_rows(cur, facts, finished=finished):
+        found[d.performance_id].append(d)
+    # a scan that met a procedure version not on record holds only until one is added
+    seen = procedures_top if facts.missing else None
+    stamp = _iso(_now())
+    _store_scans(db, [(pid, last[pid], version, int(pid in finished), seen, _deviations_to_json(found[pid]), stamp)
+                      for pid in scanned])
+    return found
+
+
 def find_deviations(db: sqlite_utils.Database, performance_ids: Iterable[int] | None = None, *,
                     now: datetime | None = None, rows: list[dict] | None = None) -> list[Deviation]:
     """Scan the log (or the given performances' part of it) with every rule.
 
-    A scan of the stored log is cached per database and set of performances until
-    the log grows or another night is over.
+    Each performance's scan is stored (``audit_scan``) with the id of its last log row,
+    the scan's version (:func:`scan_version`) and whether its night was over; a stored
+    scan is used while all of these are unchanged, so only performances with new rows
+    (or whose night has just ended) are scanned again, and a fresh process reads the
+    rest. Every rule keeps its state per performance, so the merged result is the one a
+    scan of the whole log gives. The last answer is also kept in memory until a log row
+    of those performances or a procedure version is added (a sign-in keeps it).
+
+    :param rows: scan these rows (mappings) instead, storing nothing.
     """
     finished = frozenset(_finished(db, _now(now)))
     if rows is not None:
         facts = procedure_facts(db, {r["procedure_version"] for r in rows})
         return scan(rows, facts, finished=finished)
     ids = None if performance_ids is None else tuple(sorted(set(int(i) for i in performance_ids)))
+    version = scan_version()
+    log_top, procedures_top = db.execute("SELECT (SELECT coalesce(max(id), 0) FROM step_log), "
+                                         "(SELECT coalesce(max(id), 0) FROM procedure_version)").fetchone()
     key = (_db_file(db), ids)
-    last_id = db.execute("SELECT coalesce(max(id), 0) FROM step_log").fetchone()[0]
+    stamp = (log_top, procedures_top, version, finished if ids is None else finished.intersection(ids))
     hit = _SCAN_CACHE.get(key)
-    if hit is not None and hit[0] == last_id and hit[1] == finished:
-        return list(hit[2])
-    rows = log_rows(db, ids)
-    facts = procedure_facts(db, {r["procedure_version"] for r in rows})
-    found = scan(rows, facts, finished=finished)
-    if len(_SCAN_CACHE) >= _SCAN_CACHE_MAX:
-        _SCAN_CACHE.pop(next(iter(_SCAN_CACHE)))
-    _SCAN_CACHE[key] = (last_id, finished, tuple(found))
-    return found
+    if hit is not None and hit[0] == stamp:
+        return list(hit[1])
+    if hit is not None and hit[0][1:] == stamp[1:] and hit[0][0] < log_top \
+            and not _touched(db, hit[0][0], log_top, ids):
+        _SCAN_CACHE[key] = (stamp, hit[1])   # the new rows are sign-ins or other nights'
+        return list(hit[1])
+    # One scan at a time in this process: a page opened while the warm-up scans waits for
+    # its stored result instead of scanning the same rows beside it.
+    with _SCAN_LOCK:
+        hit = _SCAN_CACHE.get(key)
+        if hit is not None and hit[0] == stamp:
+            return list(hit[1])
+        last = _last_rows(db, ids, log_top)
+        stored = _stored_scans(db, last)
+        found: dict[int, list[Deviation]] = {}
+        stale = []
+        for pid, last_id in last.items():
+            row = stored.get(pid)
+            if row is not None and row[0] == last_id and row[1] == version and row[2] == (pid in finished) \
+                    and (row[3] is None or row[3] == procedures_top):
+                found[pid] = _deviations_from_json(pid, row[4])
+            else:
+                stale.append(pid)
+        if stale:
+            found.update(_rescan(db, stale, last, log_top, finished, version, procedures_top))
+        out = [d for pid in last for d in found.get(pid, ())]
+        out.sort(key=deviation_order)
+        if len(_SCAN_CACHE) >= _SCAN_CACHE_MAX:
+            _SCAN_CACHE.pop(next(iter(_SCAN_CACHE)))
+        _SCAN_CACHE[key] = (stamp, tuple(out))
+    return out
+
+
+def warm_audit(instance: str | Path) -> int | None:
+    """Bring every performance's stored deviation scan up to date, and work out the load
+    margins of every performance into this process's memory, on a connection of its own.
+
+    ``showops serve`` runs it once in the background as it starts, so that the first
+    audit page after a restart, an upgrade or a rule change reads stored scans and
+    remembered margins (and finds the rig solver's modules loaded).
+
+    :returns: the number of deviations, or None when the database could not be opened,
+        read or written (nothing is lost: the first audit page does the work instead).
+    """
+    from showops.store.db import open_db
+
+    try:
+        db = open_db(instance, create=False)
+    except (ShowopsError, sqlite3.Error, OSError):
+        return None
+    try:
+        found = len(find_deviations(db))
+        every = [pid for (pid,) in db.execute("SELECT id FROM performance")]
+        find_deviations(db, every)      # the season pages' default period: every performance
+        _margins(db, every)
+        return found
+    except (ShowopsError, sqlite3.Error, OSError):
+        return None
+    finally:
+        db.conn.close()
 
 
 def find_deviation(db: sqlite_utils.Database, key: str, *, now: datetime | None = None) -> Deviation:
@@ -590,29 +804,37 @@ def show_report(db: sqlite_utils.Database, performance_ref: Any, *, now: datetim
                       sign["at_utc"] if signed else None, info["first_row"], info["last_row"], info["last_hash"])
 
 
-_MARGIN_CACHE: dict[tuple, tuple] = {}
+#: Rig solves for the load margins, shared across calls: a solve depends only on the rig
+#: version and the riders' masses (``RigSolver`` keys it so), so it never goes stale; with
+#: the memo, the same solve gives the same dict on every call.
+_MARGIN_SOLVER = None
+_MARGIN_MEMO: dict = {}
+#: (performance, cue number, name, rig, id of the solve's dict) of every rig cue's night
+#: -> the margins: they are a function of exactly that, so an equal key is the same answer.
+_MARGIN_CACHE: dict[tuple, list] = {}
+_MARGIN_CACHE_MAX = 4
 
 
 def _margins(db, ids: list[int]):
-    """Each rig cue's limit usage per night, from the night plans (cached while the
-    riders, their masses and the rig versions stay the same)."""
-    from showops.store.show import night_plans
+    """Each rig cue's limit usage per night: the loads of the night plans
+    (``store.show.night_loads``), solved once per rig version and riders' masses, and
+    collected again only when a night's riders, masses, cues or rig versions changed."""
+    global _MARGIN_SOLVER
+    from showops.show.verdicts import RigSolver
+    from showops.store.show import night_loads
 
-    stamp = db.execute(
-        "SELECT (SELECT coalesce(max(id), 0) FROM rig_version), (SELECT coalesce(max(id), 0) FROM procedure_version),"
-        " (SELECT count(*) || ':' || total(performance_id * 7919 + cue_id * 104729 + person_id)"
-        "  FROM performance_rider), (SELECT total(mass_kg) || ':' || count(*) FROM performer),"
-        " (SELECT count(*) || ':' || total(id) FROM performance)").fetchone()
-    key = (_db_file(db), tuple(ids))
-    hit = _MARGIN_CACHE.get(key)
-    if hit is not None and hit[0] == stamp:
-        return list(hit[1])
-    wanted = set(ids)
-    found = margins_from_plans(p for p in night_plans(db) if p.performance_id in wanted)
-    if len(_MARGIN_CACHE) >= _SCAN_CACHE_MAX:
-        _MARGIN_CACHE.pop(next(iter(_MARGIN_CACHE)))
-    _MARGIN_CACHE[key] = (stamp, tuple(found))
-    return found
+    if _MARGIN_SOLVER is None:
+        _MARGIN_SOLVER = RigSolver()
+    loads = night_loads(db, ids, solver=_MARGIN_SOLVER, memo=_MARGIN_MEMO)
+    key = tuple((pid, number, name, rig, id(load)) for pid, number, name, rig, load in loads)
+    found = _MARGIN_CACHE.get(key)
+    if found is None:
+        found = margins_from_loads((pid, f"{number} {name}".strip(), rig, load)
+                                   for pid, number, name, rig, load in loads)
+        if len(_MARGIN_CACHE) >= _MARGIN_CACHE_MAX:
+            _MARGIN_CACHE.pop(next(iter(_MARGIN_CACHE)))
+        _MARGIN_CACHE[key] = found
+    return list(found)
 
 
 def season_audit(db: sqlite_utils.Database, date_from: date, date_to: date, *, today: date | None = None,

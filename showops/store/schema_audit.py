@@ -1,5 +1,5 @@
 """Migrations 300-399: incident records, corrective actions, attachments, the stage
-manager's notes on a night.
+manager's notes on a night (300); each performance's stored deviation scan (301).
 
 Records are never deleted (triggers refuse DELETE); every change is an amendment,
 and each amendment is also a row of the hash-chained ``step_log``
@@ -108,6 +108,25 @@ CREATE TRIGGER audit_note_no_delete BEFORE DELETE ON audit_note
 BEGIN SELECT RAISE(ABORT, 'notes are never deleted'); END;
 """
 
+#: Each performance's deviation scan, kept so that only performances whose log rows
+#: changed are scanned again (``store.audit.find_deviations``). A row is a cache, not a
+#: record: it is replaced when stale and may be dropped at any time. It is used only
+#: while the performance's last ``step_log`` id, the scan's version (the deviation rules
+#: and the procedure reader), whether the night is over, and (for a scan that met a
+#: procedure version not on record) the last ``procedure_version`` id are all the same.
+_SCAN = """
+CREATE TABLE audit_scan (
+    performance_id INTEGER PRIMARY KEY,
+    last_row_id INTEGER NOT NULL,
+    scan_version TEXT NOT NULL,
+    finished INTEGER NOT NULL CHECK (finished IN (0, 1)),
+    procedures_seen INTEGER,
+    deviations TEXT NOT NULL,
+    scanned_at TEXT NOT NULL
+);
+"""
+
 MIGRATIONS = [
     Migration(300, "incident records, corrective actions, attachments, show notes", _SCHEMA),
+    Migration(301, "each performance's stored deviation scan", _SCAN),
 ]

@@ -581,6 +581,58 @@ def night_plans(db: sqlite_utils.Database, *, solver: RigSolver | None = None) -
             for pid in season.performances]
 
 
+def night_loads(db: sqlite_utils.Database, performance_ids: Iterable[int] | None = None, *,
+                solver: RigSolver | None = None, memo: dict | None = None) -> list[tuple[int, str, str, str, dict]]:
+    """Each rig cue's load on each performance, without the rest of the night's plan.
+
+    Returns ``(performance id, cue number, cue name, rig slug, load)`` in date order and
+    each production's cue order, where ``load`` is the rig solver's ``to_dict()`` for
+    that night's riders on the cue: the ``load`` :func:`night_plans` puts in each
+    :class:`CueNight` (the rig's latest stored version, the performance's riders who are
+    on the performers' list), read and solved without the plan's other rules (crew,
+    training, readiness, rehearsal), which a season's load margins do not need. A cue
+    whose rig has no readable file gives no row. One solve per rig version and riders'
+    masses (``solver``); equal solves give the same dict. No one person's mass is in it.
+
+    :param performance_ids: the performances wanted (default every one).
+    :param memo: the solves' dicts (``id(result) -> (result, dict)``); a caller that
+        keeps it, with the same ``solver``, gets the same dict for the same solve on
+        every call.
+    """
+    solver = solver or RigSolver()
+    q = db.execute
+    rigs: dict[str, Any] = {}
+    for slug, text in q("SELECT rig_slug, text FROM rig_version WHERE id IN "
+                        "(SELECT MAX(id) FROM rig_version GROUP BY rig_slug)"):
+        try:
+            rigs[slug] = parse_stored_rig(text, slug)
+        except (RigFileError, ShowopsError):  # the plan says why; there is no load to show
+            continue
+    cues: dict[int, list[tuple]] = {}
+    for cue_id, production, number, name, rig in q("SELECT id, production_id, number, name, rig_slug FROM cue "
+                                                   "ORDER BY production_id, position, id"):
+        if rig and rig in rigs:
+            cues.setdefault(production, []).append((cue_id, number, name, rig))
+    masses = dict(q("SELECT person_id, mass_kg FROM performer"))
+    riders: dict[tuple[int, int], list[float]] = {}
+    for perf, cue, pid in q("SELECT performance_id, cue_id, person_id FROM performance_rider ORDER BY person_id"):
+        if pid in masses:
+            riders.setdefault((perf, cue), []).append(masses[pid])
+    wanted = None if performance_ids is None else set(performance_ids)
+    loads: dict[int, tuple[Any, dict]] = {} if memo is None else memo
+    out = []
+    for perf, production in q("SELECT id, production_id FROM performance ORDER BY starts_at, id"):
+        if wanted is not None and perf not in wanted:
+            continue
+        for cue_id, number, name, rig in cues.get(production, ()):
+            result = solver(rigs[rig], riders.get((perf, cue_id), ()))
+            found = loads.get(id(result))
+            if found is None or found[0] is not result:
+                found = loads[id(result)] = (result, solver.as_dict(result))
+            out.append((perf, number, name, rig, found[1]))
+    return out
+
+
 def plan_to_dict(plan: NightPlan) -> dict:
     """Return the ``performances --json`` object of a plan (no one person's mass)."""
     return {

@@ -41,13 +41,13 @@ class Instance:
         self.t = T0
 
     def log(self, event, *, performance, cue=None, step=None, number=None, person=(1, "Ada Brennock"),
-            role="brake", dt=5.0, detail=None, device_lag=None):
+            role="brake", dt=5.0, detail=None, device_lag=None, version=None):
         from showops.store.log import append_events
 
         self.t += timedelta(seconds=dt)
         row = {"event": event, "at_utc": self.t.isoformat(), "person_id": person[0], "person_name": person[1],
                "role": role, "performance_id": performance, "cue_id": cue, "step_key": step,
-               "step_number": number, "detail": detail,
+               "step_number": number, "detail": detail, "procedure_version": version,
                "device_at": (self.t - timedelta(seconds=device_lag)).isoformat() if device_lag is not None else None}
         return append_events(self.db, [row])[0]
 

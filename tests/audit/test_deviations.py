@@ -14,7 +14,8 @@ from datetime import datetime, timedelta, timezone
 
 import pytest
 
-from showops.audit.deviations import RULES, ProcedureFacts, StepFacts, counts_by_rule, refusal_class, scan
+from showops.audit.deviations import (COLUMNS, RULES, ProcedureFacts, StepFacts, counts_by_rule, deviation_order,
+                                      refusal_class, scan, scan_rows)
 
 PROC = ProcedureFacts("v1", "Orchard lift, rider up and down", (
     StepFacts("Board/Brake on", 1, "Brake on", by="brake", check="spotter", sets=("brake on",)),
@@ -234,3 +235,56 @@ def test_audit_and_care_events_naming_a_cue_do_not_count_as_running_it():
     log.add("incident_reported", "caller")          # an audit row after the sign-off, with the cue's id
     log.add("inspection_recorded", "brake")
     assert scan(log.rows, {"v1": PROC}) == []
+
+
+def test_late_record_compares_instants_not_clock_faces():
+    # Same wall-clock minute at different UTC offsets is an hour apart (ISO 8601 offsets);
+    # the same instant written at two offsets is not late at all.
+    log = Log()
+    log.clean_cue()
+    log.signoff()
+    rows = [dict(r) for r in log.rows]
+    confirm = next(r for r in rows if r["event"] == "step_confirmed")
+    at = datetime.fromisoformat(confirm["at_utc"])
+    confirm["device_at"] = at.replace(second=0, tzinfo=timezone(timedelta(hours=1))).isoformat()
+    devs = scan(rows, {"v1": PROC})
+    assert rules(devs) == ["late_record"] and devs[0].detail["gap_s"] == pytest.approx(
+        (at - at.replace(second=0, tzinfo=timezone(timedelta(hours=1)))).total_seconds())
+    confirm["device_at"] = at.astimezone(timezone(timedelta(hours=1))).isoformat()
+    assert scan(rows, {"v1": PROC}) == []
+
+
+def test_a_threshold_under_a_minute_is_still_applied():
+    log = Log()
+    log.clean_cue(lag={"Ride/Lower": 40.0})
+    log.signoff()
+    assert scan(log.rows, {"v1": PROC}) == []
+    assert rules(scan(log.rows, {"v1": PROC}, late_after_s=30.0)) == ["late_record"]
+
+
+def test_tuples_of_the_columns_scan_as_the_rows_do():
+    log = Log()
+    log.clean_cue(pid=1, dt={"Ride/Raise": 31.0}, self_check="Board/Brake on")
+    log.add("hold", "spotter", pid=1, detail={"note": "rider signalled"})
+    log.clean_cue(pid=2, skip={"Ride/Brake on"}, lag={"Ride/Lower": 61.0})
+    log.signoff(pid=2)
+    tuples = [tuple(r[c] for c in COLUMNS) for r in log.rows]
+    assert [d.to_dict() for d in scan_rows(tuples, {"v1": PROC})] == \
+        [d.to_dict() for d in scan(log.rows, {"v1": PROC})]
+
+
+def test_each_performance_scanned_apart_gives_the_scan_of_all():
+    # The store keeps each performance's scan and rescans only changed ones: that is
+    # right only while every rule's state is per performance. Interleave two nights.
+    log = Log()
+    log.clean_cue(pid=1, dt={"Ride/Raise": 31.0})
+    log.clean_cue(pid=2, self_check="Board/Rider boards")
+    log.add("cue_started", pid=1, cid=71)
+    log.add("refused", "spotter", pid=2, step="Ride/Raise", detail={"code": "out_of_order", "reason": "not yet"})
+    log.clean_cue(pid=2, cid=71, skip={"Ride/Lower"})
+    log.add("hold", "spotter", pid=1, cid=71, detail={"note": "rider signalled"})
+    log.signoff(pid=2)
+    whole = scan(log.rows, {"v1": PROC})
+    apart = [d for pid in (1, 2) for d in scan([r for r in log.rows if r["performance_id"] == pid], {"v1": PROC})]
+    assert {d.performance_id for d in whole} == {1, 2} and len(whole) >= 6
+    assert [d.to_dict() for d in sorted(apart, key=deviation_order)] == [d.to_dict() for d in whole]
