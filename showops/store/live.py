@@ -36,7 +36,8 @@ from showops.live.runner import (Action, Actor, Crew, CueSetup, CueState, Refusa
 from showops.procedure.model import REST_STATE
 from showops.show.model import CueNight, NightPlan
 from showops.live.chain import GENESIS
-from showops.store.log import LogWriter, append_in_transaction, find_by_client_id, iter_log, log_head
+from showops.store.log import (LogWriter, append_in_transaction, durably, find_by_client_id, iter_log,
+                               log_head)
 
 PlanLoader = Callable[[sqlite_utils.Database, int], NightPlan]
 Clock = Callable[[], datetime]
@@ -258,24 +259,7 @@ class Live:
     def _write(self, db: sqlite_utils.Database, work: Callable[[sqlite_utils.Database], Any]) -> Any:
         if self.writer is not None:
             return self.writer.run(work)
-        conn = db.conn
-        if conn.in_transaction:
-            return work(db)
-        before = conn.execute("PRAGMA synchronous").fetchone()[0]
-        if before != 2:
-            conn.execute("PRAGMA synchronous=FULL")
-        try:
-            conn.execute("BEGIN IMMEDIATE")
-            try:
-                result = work(db)
-            except BaseException:
-                conn.execute("ROLLBACK")
-                raise
-            conn.execute("COMMIT")
-        finally:
-            if before != 2:
-                conn.execute(f"PRAGMA synchronous={before}")
-        return result
+        return durably(db, work)
 
     def act(self, db: sqlite_utils.Database, performance_id: int, cue_id: int, action: Action, *,
             now: datetime | None = None, view: bool = False) -> Outcome:

@@ -111,16 +111,24 @@ def append_events(db: sqlite_utils.Database, events: Iterable[Mapping[str, Any]]
         (nothing is written).
     """
     events = list(events)
+    return durably(db, lambda wdb: append_in_transaction(wdb.conn, events))
+
+
+def durably(db: sqlite_utils.Database, work: Callable[[sqlite_utils.Database], T]) -> T:
+    """Run ``work(db)`` in one ``BEGIN IMMEDIATE`` transaction committed with
+    ``synchronous=FULL`` (rolled back if it raises), or inside the transaction the
+    caller already holds, whose COMMIT then decides durability.
+    """
     conn = db.conn
     if conn.in_transaction:
-        return append_in_transaction(conn, events)
+        return work(db)
     before = conn.execute("PRAGMA synchronous").fetchone()[0]
     if before != 2:
         conn.execute("PRAGMA synchronous=FULL")
     try:
         conn.execute("BEGIN IMMEDIATE")
         try:
-            rows = append_in_transaction(conn, events)
+            result = work(db)
         except BaseException:
             conn.execute("ROLLBACK")
             raise
@@ -128,7 +136,7 @@ def append_events(db: sqlite_utils.Database, events: Iterable[Mapping[str, Any]]
     finally:
         if before != 2:
             conn.execute(f"PRAGMA synchronous={before}")
-    return rows
+    return result
 
 
 def log_head(db: sqlite_utils.Database) -> tuple[int, str]:
