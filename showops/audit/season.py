@@ -118,6 +118,14 @@ class SeasonAudit:
     overdue_actions: list[ActionRef]
     matrix: dict[str, list[int]]                        # cell -> record ids
     deviations: list[Deviation] = field(default_factory=list)
+
+    @property
+    def trend_labels(self) -> list[str]:
+        """A short name for each point of the trend: its day (``MM-DD``), with the time
+        when two performances share that day (a matinee and an evening)."""
+        days = [p.day for p, _, _ in self.trend]
+        return [p.day[5:] + (" " + p.starts_at[11:16] if days.count(p.day) > 1 else "")
+                for p, _, _ in self.trend]
     records: list[RecordRef] = field(default_factory=list)
 
     @property

@@ -46,7 +46,8 @@ def trend_chart(season: SeasonAudit, width: float, height: float = 170) -> Drawi
     lp.xValueAxis.valueMin, lp.xValueAxis.valueMax = 0.5, n + 0.5
     step = max(1, round(n / 10))
     lp.xValueAxis.valueSteps = list(range(1, n + 1, step))
-    lp.xValueAxis.labelTextFormat = lambda v: season.trend[int(v) - 1][0].day[5:] if 1 <= v <= n else ""
+    names = season.trend_labels
+    lp.xValueAxis.labelTextFormat = lambda v: names[int(v) - 1] if 1 <= v <= n else ""
     lp.xValueAxis.labels.fontSize = 7
     lp.xValueAxis.labels.angle = 30 if n > 12 else 0
     lp.xValueAxis.labels.dy = -4

@@ -59,6 +59,13 @@ def test_trend_matrix_and_actions():
     assert tables["actions"][1][1][-1] == "yes" and tables["risk_matrix"][1][0][0] == "5A"
 
 
+def test_trend_labels_name_the_time_only_when_two_performances_share_a_day():
+    perfs = [PerformanceRef(1, "2026-11-21T14:00:00+00:00"), PerformanceRef(2, "2026-11-21T19:30:00+00:00"),
+             PerformanceRef(3, "2026-11-22T19:30:00+00:00")]
+    s = build_season(date(2026, 11, 20), date(2026, 11, 30), perfs, CUES, [], [], [], [], today=date(2026, 12, 1))
+    assert s.trend_labels == ["11-21 14:00", "11-21 19:30", "11-22"]
+
+
 def test_margins_from_night_plans():
     def plan(pid, usage):
         load = {"checks": [{"limit": "operator_force_per_person", "label": "pull per lifter", "usage": usage},

@@ -96,7 +96,7 @@ def trend_svg(season, width: int = 720, height: int = 200) -> Markup:
                     for v in sorted({0, peak // 2, peak}))
     step = max(1, n // 8)
     labels = "".join(f'<text x="{left + w * (i + 0.5) / n:.1f}" y="{height - 8}" text-anchor="middle">'
-                     f'{escape(p.day[5:])}</text>' for i, (p, _, _) in enumerate(points) if i % step == 0)
+                     f'{escape(name)}</text>' for i, name in enumerate(season.trend_labels) if i % step == 0)
     return Markup(
         f'<svg class="audit-chart" viewBox="0 0 {width} {height}" role="img" width="100%" '
         f'aria-label="Deviations and records per performance" font-size="11" fill="#9a9384">'
@@ -108,7 +108,7 @@ def trend_svg(season, width: int = 720, height: int = 200) -> Markup:
 
 def matrix_svg(season, width: int = 720) -> Markup:
     """The 5x5 matrix with each record placed in its cell (inline SVG)."""
-    label_w, head, cell_h = 150, 26, 52
+    label_w, head, cell_h = 190, 26, 52  # room for "1 Extremely improbable"
     cell_w = (width - label_w) / 5
     height = head + 5 * cell_h
     parts = [f'<svg class="audit-matrix" viewBox="0 0 {width} {height}" width="100%" role="img" '
