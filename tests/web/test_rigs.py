@@ -115,3 +115,23 @@ def test_the_stage_manager_sees_limits_without_a_form(client, auth, demo):
     auth.login("halden", DEMO_PASSWORD)
     page = read_forms(client.get("/rigs/orchard-lift").get_data(as_text=True))
     assert [f for f in page.forms if f["id"] == "limits-form"] == []
+
+
+def test_limits_are_shown_with_their_units(client, auth, demo):
+    # The units each key is read in (docs/rig-file.md's tables), written with the SI symbols
+    # (BIPM, The International System of Units, 9th ed. 2019: kg, N, N·m).
+    from showops.web.areas.rigs import limit_units
+
+    units = limit_units(RIG, "orchard-lift")
+    assert units == {"rated_payload": "kg", "operator_force_per_person": "N", "stand_moment": "N·m",
+                     "beam_axial": "N", "brake_holding": "N"}
+    auth.login("halden", DEMO_PASSWORD)
+    page = client.get("/rigs").get_data(as_text=True)
+    for shown in ("<dd>140 kg</dd>", "<dd>300 N·m</dd>", "<dd>1200 N</dd>", "<dd>4500 N·m</dd>", "<dd>2</dd>",
+                  "<dd>0.8</dd>"):
+        assert shown in page, shown
+    assert "+00:00" not in page and " UTC ·" in page  # versions dated as people read them
+    auth.logout()
+    auth.login("lise", DEMO_PASSWORD)
+    form = client.get("/rigs/orchard-lift").get_data(as_text=True)
+    assert "rated payload (kg)" in form and "stand moment (N·m)" in form

@@ -120,6 +120,45 @@ def _verdicts_on(db, slug: str) -> dict[tuple[int, int], dict]:
     return found
 
 
+#: the unit a rig model's field name ends with (the SI-inside convention), as people write it
+_UNIT_OF_SUFFIX = {"kg": "kg", "n": "N", "nm": "N·m", "m": "m", "s": "s"}
+
+
+def limit_units(text: str, slug: str) -> dict[str, str]:
+    """The SI unit of each ``[limits]`` key that is a quantity, read from the parsed rig
+    model's field names (``stand_moment`` -> ``stand_moment_nm`` -> N·m), so a new rig
+    kind's limits get their units without a list here. Empty when the text does not
+    parse (the page still shows the values as written)."""
+    import dataclasses
+
+    from showops.store.show import parse_stored_rig
+
+    try:
+        model = parse_stored_rig(text, slug)
+    except ShowopsError:
+        return {}
+    units = {}
+    for f in dataclasses.fields(model.limits):
+        base, _, suffix = f.name.rpartition("_")
+        if base and suffix in _UNIT_OF_SUFFIX:
+            units[base] = _UNIT_OF_SUFFIX[suffix]
+    return units
+
+
+@bp.app_template_filter("utc_minute")
+def shown_time(value: str | None) -> str:
+    """A stored ISO 8601 time as people read it on the page (``2026-12-02 05:44 UTC``)."""
+    if not value:
+        return ""
+    try:
+        at = datetime.fromisoformat(value)
+    except ValueError:
+        return value
+    if at.tzinfo is not None:
+        return at.astimezone(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    return at.strftime("%Y-%m-%d %H:%M")
+
+
 @bp.route("")
 @nav_item("Rigs and limits", 60)
 @roles_required("admin", "stage_manager", "viewer")
@@ -132,7 +171,7 @@ def index():
             limits = current_limits(rig["text"] or "")
         except ShowopsError:
             limits = {}
-        rows.append(dict(rig, limits=limits))
+        rows.append(dict(rig, limits=limits, units=limit_units(rig["text"] or "", rig["slug"])))
     return render_template("rigs/index.html", rigs=rows)
 
 
@@ -140,7 +179,8 @@ def _page(slug: str, *, message: str | None = None, status: int = 200, form: dic
           changed: list | None = None, change_list: list | None = None):
     rig = webviews.rig(get_db(), slug)
     limits = current_limits(rig["text"] or "")
-    return render_template("rigs/rig.html", rig=rig, limits=limits, message=message, form=form or {},
+    return render_template("rigs/rig.html", rig=rig, limits=limits, units=limit_units(rig["text"] or "", slug),
+                           message=message, form=form or {},
                            changed=changed, change_list=change_list), status
 
 
