@@ -42,6 +42,13 @@ def echo_caution() -> None:
     click.echo(click.wrap_text("Caution: " + CAUTION, width=88))
 
 
+def echo_json_with_caution(data: dict) -> None:
+    """Print ``data`` as indented JSON with the caution under the key ``caution``."""
+    import json
+
+    click.echo(json.dumps(dict(data, caution=CAUTION), indent=2))
+
+
 @click.group(cls=ShowopsGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="showops")
 def main() -> None:

@@ -2,13 +2,11 @@
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import click
 
-from showops import CAUTION
-from showops.cli import echo_caution, main
+from showops.cli import echo_caution, echo_json_with_caution, main
 from showops.errors import UnitError, ValidationError
 from showops.rig import load_rig, solve_rig
 from showops.units import format_quantity, to_si
@@ -59,9 +57,7 @@ def solve(rig_file: Path, riders: str | None, as_json: bool, imperial: bool) -> 
     model = load_rig(rig_file)
     result = solve_rig(model, parse_riders(riders))
     if as_json:
-        out = result.to_dict()
-        out["caution"] = CAUTION
-        click.echo(json.dumps(out, indent=2))
+        echo_json_with_caution(result.to_dict())
         return
     click.echo(render_result(result, imperial=imperial))
     echo_caution()
@@ -127,9 +123,7 @@ def advise(rig_file: Path, riders: str, as_json: bool) -> None:
     model = load_rig(rig_file)
     advice = advise_balance(model, parse_riders(riders))
     if as_json:
-        out = advice.to_dict()
-        out["caution"] = CAUTION
-        click.echo(json.dumps(out, indent=2))
+        echo_json_with_caution(advice.to_dict())
         return
     click.echo(advice.text)
     if advice.result is not None and advice.changed:
